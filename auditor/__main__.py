@@ -1,0 +1,4 @@
+"""`python -m auditor` runs the command line."""
+from auditor.cli import entry
+
+entry()

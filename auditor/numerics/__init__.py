@@ -1,0 +1,1 @@
+"""High-precision numerics for the dynamic pass: pure functions, no I/O."""

@@ -1,0 +1,145 @@
+"""The rule API: what a rule declares, what it yields, and the per-file facts it is given."""
+from __future__ import annotations
+
+import ast
+from collections.abc import Iterator
+from dataclasses import dataclass, field
+from typing import ClassVar
+
+from auditor.flow import Binding, ScopeFlow, analyse_scope
+from auditor.model import Severity
+from auditor.names import family_of
+from auditor.resolve import ImportTable, collect_imports
+
+PARENT = "_auditor_parent"
+
+
+@dataclass(frozen=True, slots=True)
+class Hit:
+    """What a rule's `check` yields; the engine adds path, span and snippet."""
+
+    node: ast.AST  #: the flagged node (its span is reported)
+    message: str  #: consequence and fix in one sentence
+    severity: Severity | None = None  #: overrides the rule's default when set
+    rewrite: str | None = None  #: replacement source text for the node, if a stable form exists
+    imports: tuple[str, ...] = ()  #: imports the rewrite needs, e.g. ("import math",)
+
+
+@dataclass(frozen=True, slots=True)
+class Example:
+    """A snippet the tests run: `flagged` says whether the rule must fire on it."""
+
+    code: str
+    flagged: bool
+    rewrite: str | None = None  #: expected rewrite text, when the rule offers one
+    inputs: dict[str, float] = field(default_factory=dict)  #: where measuring shows the gain
+    note: str = ""
+
+
+class Rule:
+    """Base of every rule in `rules/`; subclasses set the class attributes and `check`."""
+
+    id: ClassVar[str]
+    title: ClassVar[str]
+    severity: ClassVar[Severity]
+    summary: ClassVar[str]
+    node_types: ClassVar[tuple[type[ast.AST], ...]]
+    #: published method behind the fix, with its source ("from memory" where recalled)
+    method: ClassVar[str] = ""
+    #: rewrite template in `str.format` syntax, e.g. "math.expm1({x})", or "" when none
+    rewrite_template: ClassVar[str] = ""
+    examples: ClassVar[tuple[Example, ...]]
+    rationale: ClassVar[str] = ""  #: filled by the catalog from the module docstring
+
+    def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        raise NotImplementedError
+
+
+class Context:
+    """Facts about one file, computed once and shared by every rule."""
+
+    def __init__(self, tree: ast.Module, path: str, source: str) -> None:
+        self.tree = tree
+        self.path = path
+        self.source = source
+        self._imports: ImportTable | None = None
+        self._flows: dict[int, ScopeFlow] = {}
+
+    # -- structure -------------------------------------------------------
+    @staticmethod
+    def parent(node: ast.AST) -> ast.AST | None:
+        """The syntactic parent (set by the engine's walk)."""
+        return getattr(node, PARENT, None)
+
+    def ancestors(self, node: ast.AST) -> Iterator[ast.AST]:
+        current = self.parent(node)
+        while current is not None:
+            yield current
+            current = self.parent(current)
+
+    def scope(self, node: ast.AST) -> ast.AST:
+        """The enclosing function (or lambda), else the module."""
+        for anc in self.ancestors(node):
+            if isinstance(anc, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
+                return anc
+        return self.tree
+
+    def enclosing_loops(self, node: ast.AST) -> list[ast.For | ast.While]:
+        """Loops around `node` inside its scope, innermost first."""
+        loops: list[ast.For | ast.While] = []
+        for anc in self.ancestors(node):
+            if isinstance(anc, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
+                break
+            if isinstance(anc, (ast.For, ast.While)):
+                loops.append(anc)
+        return loops
+
+    # -- names -----------------------------------------------------------
+    @property
+    def imports(self) -> ImportTable:
+        if self._imports is None:
+            self._imports = collect_imports(self.tree)
+        return self._imports
+
+    def qualname(self, node: ast.AST) -> str | None:
+        """'np.linalg.inv' -> 'numpy.linalg.inv' under `import numpy as np`."""
+        return self.imports.qualname(node)
+
+    def family(self, node: ast.AST) -> str | None:
+        """Canonical numeric family of a call (or callee): `np.exp(x)` -> 'exp'."""
+        if isinstance(node, ast.Call):
+            node = node.func
+        return family_of(self.imports.qualname(node))
+
+    def is_call(self, node: ast.AST, *families: str) -> bool:
+        """True when `node` calls a numeric function of one of `families`."""
+        return isinstance(node, ast.Call) and self.family(node) in families
+
+    # -- data flow -------------------------------------------------------
+    def flow(self, scope: ast.AST) -> ScopeFlow:
+        key = id(scope)
+        if key not in self._flows:
+            self._flows[key] = analyse_scope(scope)
+        return self._flows[key]
+
+    def binding(self, name: ast.Name) -> Binding | None:
+        """The binding of `name` that reaches this use in its scope (last one before it)."""
+        return self.flow(self.scope(name)).reaching(name.id, name.lineno, name.col_offset)
+
+    def value_of(self, name: ast.Name) -> ast.expr | None:
+        """The expression last assigned to `name`, when a plain assignment reaches it."""
+        b = self.binding(name)
+        if b is None or b.kind not in ("assign", "unpack") or b.value is None:
+            return None
+        if len(self.flow(self.scope(name)).of(name.id)) > 1 and self.enclosing_loops(name):
+            return None  # reassigned inside a loop: the reaching value is ambiguous
+        return b.value
+
+    def origin(self, expr: ast.expr, depth: int = 4) -> ast.expr:
+        """See through local variables: `e = np.exp(x); e - 1` -> origin of `e` is `np.exp(x)`."""
+        while depth > 0 and isinstance(expr, ast.Name):
+            value = self.value_of(expr)
+            if value is None:
+                break
+            expr, depth = value, depth - 1
+        return expr

@@ -1,0 +1,80 @@
+"""`exp(x) - 1` cancels for small |x|.
+
+Near x = 0, exp(x) is 1 + x + ...; subtracting 1 removes the leading digit and leaves only
+what rounding kept of x. For |x| = 1e-8 about half the digits are gone; below the unit
+roundoff (|x| < 1.1e-16) the result is exactly 0 (or 2.2e-16) instead of about x. The same
+happens to `1 - exp(-x)` and to `exp(x) - 1` reached through a local variable. Every libm
+provides expm1, which evaluates exp(x) - 1 without forming exp(x).
+"""
+from __future__ import annotations
+
+import ast
+from collections.abc import Iterator
+
+from auditor import Context, Example, Hit, Rule, Severity
+from auditor import patterns as p
+
+#: modules that offer expm1 under that name
+_HAS_EXPM1 = ("math", "numpy", "scipy.special", "mpmath", "torch", "jax.numpy", "cupy")
+
+
+def exp_argument(ctx: Context, expr: ast.expr) -> tuple[ast.expr, ast.Call] | None:
+    """(x, call) when `expr` is exp(x), directly or through a local variable."""
+    origin = ctx.origin(expr)
+    if ctx.is_call(origin, "exp") and isinstance(origin, ast.Call):
+        arg = p.single_arg(origin)
+        if arg is not None and p.has_free_names(arg):
+            return arg, origin
+    return None
+
+
+def expm1_text(ctx: Context, call: ast.Call, arg: ast.expr, negate: bool) -> tuple[str | None, tuple[str, ...]]:
+    module = p.callee_module(ctx, call) or "math"
+    if module not in _HAS_EXPM1:
+        return None, ()
+    func, imports = p.spelled(ctx, module, "expm1")
+    body = f"{func}({p.text(ctx, arg)})"
+    return (f"-{body}" if negate else body), imports
+
+
+class ExpMinusOne(Rule):
+    id = "exp-minus-one"
+    title = "exp(x) - 1 computed directly"
+    severity = Severity.WARNING
+    summary = "exp(x) - 1 or 1 - exp(x): cancels for small |x|; use expm1"
+    node_types = (ast.BinOp,)
+    method = (
+        "expm1 as provided by C99/IEEE 754-2008 libm; error analysis of exp(x) - 1 in N. J. Higham, "
+        "Accuracy and Stability of Numerical Algorithms, 2nd ed., SIAM 2002, section 1.14.1 (from memory)"
+    )
+    rewrite_template = "math.expm1({x})"
+    examples = (
+        Example("import math\ndef growth(r):\n    return math.exp(r) - 1.0\n", True, "math.expm1(r)", {"r": 1e-10}),
+        Example("import numpy as np\ndef f(x):\n    e = np.exp(x)\n    return e - 1\n", True, "np.expm1(x)"),
+        Example("from math import exp as e\ndef decay(t, tau):\n    return 1 - e(-t / tau)\n", True, "-math.expm1(-t / tau)"),
+        Example("import math\ndef f(x):\n    return math.expm1(x)\n", False),
+        Example("import math\nK = math.exp(2.0) - 1.0\n", False, note="constant argument: nothing to cancel"),
+        Example("import math\ndef f(x):\n    return math.exp(x) - math.exp(-x)\n", False, note="a different rule's pattern"),
+    )
+
+    def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        assert isinstance(node, ast.BinOp)
+        if not isinstance(node.op, ast.Sub):
+            return
+        if p.is_one(node.right):
+            found, negate = exp_argument(ctx, node.left), False
+        elif p.is_one(node.left):
+            found, negate = exp_argument(ctx, node.right), True
+        else:
+            return
+        if found is None:
+            return
+        arg, call = found
+        rewrite, imports = expm1_text(ctx, call, arg, negate)
+        fix = rewrite or "an expm1 function"
+        yield Hit(
+            node,
+            f"for |x| below about 1e-8 this loses half its digits and returns 0 below 1e-16; use {fix}",
+            rewrite=rewrite,
+            imports=imports,
+        )

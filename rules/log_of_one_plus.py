@@ -1,0 +1,72 @@
+"""`log(1 + x)` loses the digits of a small x.
+
+Forming 1 + x rounds away every digit of x below the unit roundoff of 1: for |x| = 1e-10 only
+about six significant digits of x survive, and for |x| < 1.1e-16 the sum is exactly 1 and the
+logarithm returns 0 instead of about x. `log(1 - x)` has the same flaw. log1p(x) takes x
+itself and keeps full relative accuracy; `log1p(-x)` covers `log(1 - x)`.
+"""
+from __future__ import annotations
+
+import ast
+from collections.abc import Iterator
+
+from auditor import Context, Example, Hit, Rule, Severity
+from auditor import patterns as p
+
+_HAS_LOG1P = ("math", "numpy", "scipy.special", "mpmath", "torch", "jax.numpy", "cupy")
+
+
+def one_plus(ctx: Context, expr: ast.expr) -> tuple[ast.expr, bool] | None:
+    """(x, negated) when `expr` is 1 + x, x + 1 or 1 - x (directly or through a local)."""
+    expr = ctx.origin(expr)
+    if not isinstance(expr, ast.BinOp) or not isinstance(expr.op, (ast.Add, ast.Sub)):
+        return None
+    if p.is_one(expr.left):
+        other, negated = expr.right, isinstance(expr.op, ast.Sub)
+    elif p.is_one(expr.right) and isinstance(expr.op, ast.Add):
+        other, negated = expr.left, False
+    else:
+        return None
+    if not p.has_free_names(other) or p.is_integer_valued(ctx, other):
+        return None
+    return other, negated
+
+
+class LogOfOnePlus(Rule):
+    id = "log-of-one-plus"
+    title = "log(1 + x) computed directly"
+    severity = Severity.WARNING
+    summary = "log(1 + x) or log(1 - x): rounds away small x; use log1p"
+    node_types = (ast.Call,)
+    method = (
+        "log1p as provided by C99/IEEE 754-2008 libm; D. Goldberg, What Every Computer Scientist "
+        "Should Know About Floating-Point Arithmetic, ACM Computing Surveys 23(1), 1991, on ln(1+x) (from memory)"
+    )
+    rewrite_template = "math.log1p({x})"
+    examples = (
+        Example("import math\ndef rate(x):\n    return math.log(1 + x)\n", True, "math.log1p(x)", {"x": 1e-12}),
+        Example("import numpy as np\ndef f(p):\n    return np.log(1.0 - p)\n", True, "np.log1p(-p)"),
+        Example("import numpy as np\ndef f(x):\n    u = x + 1\n    return np.log(u)\n", True, "np.log1p(x)"),
+        Example("import math\ndef f(x):\n    return math.log1p(x)\n", False),
+        Example("import math\ndef f(xs):\n    return math.log(1 + len(xs))\n", False, note="integer count"),
+        Example("import math\ndef f(x):\n    return math.log(2 + x)\n", False),
+    )
+
+    def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        assert isinstance(node, ast.Call)
+        if ctx.family(node) != "log":
+            return
+        arg = p.single_arg(node)
+        found = one_plus(ctx, arg) if arg is not None else None
+        if found is None:
+            return
+        x, negated = found
+        module = p.callee_module(ctx, node) or "math"
+        rewrite, imports = None, ()
+        if module in _HAS_LOG1P:
+            func, imports = p.spelled(ctx, module, "log1p")
+            inner = p.operand_text(ctx, x) if negated else p.text(ctx, x)
+            rewrite = f"{func}({'-' + inner if negated else inner})"
+        fix = rewrite or "a log1p function"
+        yield Hit(node, f"for |x| near 1e-10 half the digits of x are rounded away and below 1e-16 this returns 0; use {fix}",
+                  rewrite=rewrite, imports=imports)

@@ -55,6 +55,7 @@ class SeriesFigures:
     divergent: bool  #: True when the terms grow again after the smallest one
     optimal_terms: int | None = None  #: terms to keep for optimal truncation (divergent only)
     truncation_error: float | None = None  #: error estimate at optimal truncation (divergent only)
+    term_magnitudes: tuple[float, ...] = ()  #: |t_k| by index k at the worst input, for plots (may be empty)
 
 
 @dataclass(frozen=True, slots=True)
@@ -71,6 +72,8 @@ class Measurement:
     verdict: Verdict
     reason: str  #: why, in words; for not-measured what was missing
     series: SeriesFigures | None = None
+    #: per-sample (input value of the main variable, digits lost), for plots; may be empty
+    points: tuple[tuple[float, float], ...] = ()
 
 
 @dataclass(frozen=True, slots=True)
@@ -99,9 +102,10 @@ class Finding:
     rewrite: Rewrite | None = None
     fingerprint: str = ""  #: line-independent identity used by baselines
     baseline_state: str | None = None  #: "new" / "unchanged" when a baseline was given
+    cell: int | None = None  #: notebooks only: 1-based cell number (all cells counted); span is within the cell
 
-    def sort_key(self) -> tuple[str, int, int, str]:
-        return (self.path, self.span.line, self.span.column, self.rule)
+    def sort_key(self) -> tuple[str, int, int, int, str]:
+        return (self.path, self.cell or 0, self.span.line, self.span.column, self.rule)
 
     def with_(self, **changes: Any) -> Finding:
         """A copy with some fields replaced."""

@@ -153,7 +153,9 @@ def decode(ref: SourceRef, data: bytes) -> SourceText | FileError:
     try:
         encoding, _ = tokenize.detect_encoding(io.BytesIO(data).readline)
     except SyntaxError as exc:
-        return FileError(ref.display, f"bad coding line: {exc.msg if hasattr(exc, 'msg') else exc}")
+        if "invalid or missing" not in str(exc):
+            return FileError(ref.display, f"bad coding line: {exc.msg}")
+        encoding = "utf-8"  # no usable declaration: report where UTF-8 decoding fails
     try:
         text = data.decode(encoding)
     except (UnicodeDecodeError, LookupError) as exc:

@@ -1,0 +1,299 @@
+"""Apply rewrites to a file's text: splice each span, add needed imports once, keep every other byte.
+
+The only libcst user. Spans are spliced by character offset (exactly byte-preserving outside
+them); libcst parses the file only to place new import statements among the existing ones.
+Every result is re-parsed with `ast`; an edit that would break the file is skipped, and a file
+whose combined result does not parse is refused as a whole.
+"""
+from __future__ import annotations
+
+import ast
+from collections.abc import Iterable, Sequence
+from dataclasses import dataclass
+
+import libcst as cst
+
+from auditor.model import Span
+from auditor.splice import indent_variants, line_indent, line_starts, offsets, splice
+
+
+@dataclass(frozen=True, slots=True)
+class Edit:
+    """One replacement: the text for a span, and the imports that text needs."""
+
+    span: Span  #: 1-based, end column exclusive, in characters
+    text: str  #: replacement source; multi-line statements written as if at column 0
+    imports: tuple[str, ...] = ()  #: e.g. ("import math",); each added once if not already bound
+    label: str = ""  #: how reports name this edit, e.g. "exp-minus-one at 12:5"
+    original: str | None = None  #: the text the span must still hold (stale spans are skipped)
+
+
+@dataclass(frozen=True, slots=True)
+class Skipped:
+    edit: Edit
+    reason: str  #: why it was not applied, in words
+
+
+@dataclass(frozen=True, slots=True)
+class Outcome:
+    """What applying a set of edits to one text gave."""
+
+    text: str  #: the new text; the original unchanged when nothing applied or the file was refused
+    applied: tuple[Edit, ...]
+    skipped: tuple[Skipped, ...]
+    imports_added: tuple[str, ...] = ()
+    error: str | None = None  #: set when the file as a whole was refused
+
+    @property
+    def changed(self) -> bool:
+        return bool(self.applied) and self.error is None
+
+
+@dataclass(frozen=True, slots=True)
+class _Placed:
+    edit: Edit
+    start: int
+    end: int
+    text: str = ""  #: the replacement as laid out at its place
+
+
+def parses(text: str) -> str | None:
+    """None when `text` is valid Python, else the parser's complaint."""
+    try:
+        ast.parse(text)
+    except SyntaxError as exc:
+        return f"syntax error at line {exc.lineno}: {exc.msg}"
+    except (ValueError, RecursionError, MemoryError) as exc:
+        return f"cannot parse: {type(exc).__name__}"
+    return None
+
+
+def apply_edits(source: str, edits: Sequence[Edit]) -> Outcome:
+    """Splice the edits that fit, parse and do not overlap; add their imports; validate the result."""
+    try:
+        tree = ast.parse(source)
+    except (SyntaxError, ValueError, RecursionError, MemoryError):
+        return Outcome(source, (), tuple(Skipped(e, "the file does not parse") for e in edits), error="the file does not parse")
+    bound = module_bindings(tree)
+    skipped: list[Skipped] = []
+    located = _locate(source, edits, bound, skipped)
+    placed = [p for p in (_lay_out(source, p, skipped) for p in _without_overlaps(located, skipped)) if p]
+    text = source
+    for p in sorted(placed, key=lambda p: p.start, reverse=True):
+        text = splice(text, p.start, p.end, p.text)
+    applied = tuple(p.edit for p in sorted(placed, key=lambda p: p.start))
+    needed = _needed_imports(applied, bound)
+    if needed:
+        try:
+            text = add_imports(text, needed)
+        except (cst.ParserSyntaxError, ValueError, RecursionError) as exc:
+            return _refuse(source, edits, skipped, f"cannot place the imports: {type(exc).__name__}")
+    complaint = parses(text)
+    if complaint is not None:
+        return _refuse(source, edits, skipped, f"the rewritten file would not parse ({complaint})")
+    return Outcome(text, applied, tuple(skipped), tuple(needed))
+
+
+def _refuse(source: str, edits: Sequence[Edit], skipped: list[Skipped], why: str) -> Outcome:
+    done = {id(s.edit) for s in skipped}
+    rest = [Skipped(e, why) for e in edits if id(e) not in done]
+    return Outcome(source, (), (*skipped, *rest), error=why)
+
+
+def _locate(source: str, edits: Sequence[Edit], bound: dict[str, str], skipped: list[Skipped]) -> list[_Placed]:
+    """Offsets of each edit; drop spans outside the text, stale spans and conflicting imports."""
+    starts = line_starts(source)
+    out: list[_Placed] = []
+    for edit in edits:
+        where = offsets(source, edit.span, starts)
+        why = _import_conflict(edit, bound)
+        if where is None:
+            why = "its span lies outside the file"
+        elif edit.original is not None and source[where[0] : where[1]] != edit.original:
+            why = "the source changed since it was measured"
+        if why:
+            skipped.append(Skipped(edit, why))
+        else:
+            out.append(_Placed(edit, *where))  # type: ignore[misc]
+    return out
+
+
+def _without_overlaps(located: list[_Placed], skipped: list[Skipped]) -> list[_Placed]:
+    """Keep the outer of nested edits and the first of crossing ones."""
+    kept: list[_Placed] = []
+    for p in sorted(located, key=lambda p: (p.start, -p.end)):
+        last = kept[-1] if kept else None
+        if last is not None and (p.start < last.end or (p.start, p.end) == (last.start, last.end)):
+            same = (p.start, p.end, p.edit.text) == (last.start, last.end, last.edit.text)
+            reason = "duplicate of" if same else "overlaps"
+            skipped.append(Skipped(p.edit, f"{reason} {last.edit.label or 'another rewrite'}"))
+            continue
+        kept.append(p)
+    return kept
+
+
+def _lay_out(source: str, p: _Placed, skipped: list[Skipped]) -> _Placed | None:
+    """The first layout of the replacement (re-indented to its place) with which the file parses."""
+    indent, _ = line_indent(source, p.start)
+    complaint = "empty replacement"
+    for candidate in indent_variants(p.edit.text, indent):
+        complaint = parses(splice(source, p.start, p.end, candidate)) or ""
+        if not complaint:
+            return _Placed(p.edit, p.start, p.end, candidate)
+    skipped.append(Skipped(p.edit, f"the rewrite does not parse in place ({complaint})"))
+    return None
+
+
+# -- imports ---------------------------------------------------------------------------------
+
+
+def import_bindings(statement: str) -> dict[str, str] | None:
+    """{'np': 'numpy'} for 'import numpy as np'; None unless it is one plain import statement."""
+    try:
+        body = ast.parse(statement).body
+    except SyntaxError:
+        return None
+    if len(body) != 1 or not isinstance(body[0], (ast.Import, ast.ImportFrom)):
+        return None
+    return _bindings_of(body[0])
+
+
+def _bindings_of(node: ast.Import | ast.ImportFrom) -> dict[str, str]:
+    if isinstance(node, ast.Import):
+        out: dict[str, str] = {}
+        for a in node.names:
+            head = a.name.partition(".")[0]
+            out[a.asname or head] = a.name if a.asname else head
+            if not a.asname and a.name != head:
+                out[a.name] = a.name  # `import scipy.special` also loads the submodule: remember it
+        return out
+    base = "." * node.level + (node.module or "")
+    return {(a.asname or a.name): f"{base}.{a.name}" for a in node.names if a.name != "*"}
+
+
+def module_bindings(tree: ast.Module) -> dict[str, str]:
+    """Names bound by imports at module level (inside top-level if/try too, not in functions)."""
+    out: dict[str, str] = {}
+    stack: list[ast.AST] = [tree]
+    while stack:
+        for child in ast.iter_child_nodes(stack.pop()):
+            if isinstance(child, (ast.Import, ast.ImportFrom)):
+                for local, qual in _bindings_of(child).items():
+                    out.setdefault(local, qual)
+            elif isinstance(child, ast.stmt) and not isinstance(
+                child, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)
+            ):
+                stack.append(child)
+    return out
+
+
+def _import_conflict(edit: Edit, bound: dict[str, str]) -> str:
+    for statement in edit.imports:
+        names = import_bindings(statement)
+        if names is None:
+            return f"it asks for an unusable import {statement!r}"
+        for local, qual in names.items():
+            if bound.get(local, qual) != qual:
+                return f"{statement!r} would rebind {local!r}, which means {bound[local]!r} here"
+    return ""
+
+
+def _needed_imports(applied: Iterable[Edit], bound: dict[str, str]) -> list[str]:
+    needed: list[str] = []
+    have = dict(bound)
+    for edit in applied:
+        for statement in edit.imports:
+            names = import_bindings(statement) or {}
+            if any(have.get(local) != qual for local, qual in names.items()):
+                needed.append(statement.strip())
+                have.update(names)
+    return needed
+
+
+def add_imports(text: str, statements: Sequence[str]) -> str:
+    """Insert each import statement among the module's leading imports, in their sort order."""
+    module = cst.parse_module(text)
+    body = list(module.body)
+    for statement in statements:
+        new = cst.parse_statement(statement)
+        assert isinstance(new, cst.SimpleStatementLine)
+        body = _merge_from_import(body, new) or _insert_import(body, new)
+    return module.with_changes(body=body).code
+
+
+def _import_line(stmt: cst.BaseStatement) -> cst.Import | cst.ImportFrom | None:
+    if isinstance(stmt, cst.SimpleStatementLine) and len(stmt.body) == 1:
+        node = stmt.body[0]
+        if isinstance(node, (cst.Import, cst.ImportFrom)):
+            return node
+    return None
+
+
+def _dotted(node: cst.BaseExpression | None) -> str:
+    if isinstance(node, cst.Name):
+        return node.value
+    if isinstance(node, cst.Attribute):
+        return f"{_dotted(node.value)}.{node.attr.value}"
+    return ""
+
+
+def _sort_key(node: cst.Import | cst.ImportFrom) -> str:
+    if isinstance(node, cst.Import):
+        return _dotted(node.names[0].name).lower()
+    return ("." * len(node.relative) + _dotted(node.module)).lower()
+
+
+def _is_future(node: cst.Import | cst.ImportFrom | None) -> bool:
+    return isinstance(node, cst.ImportFrom) and _dotted(node.module) == "__future__"
+
+
+def _is_docstring(stmt: cst.BaseStatement) -> bool:
+    return (isinstance(stmt, cst.SimpleStatementLine) and len(stmt.body) == 1 and isinstance(stmt.body[0], cst.Expr)
+            and isinstance(stmt.body[0].value, (cst.SimpleString, cst.ConcatenatedString)))
+
+
+def _leading_block(body: list[cst.BaseStatement]) -> tuple[int, list[int]]:
+    """(first index after the docstring and __future__ imports, indexes of the imports that follow)."""
+    lo = 1 if body and _is_docstring(body[0]) else 0
+    while lo < len(body) and _is_future(_import_line(body[lo])):
+        lo += 1
+    block = []
+    while lo + len(block) < len(body) and _import_line(body[lo + len(block)]) is not None:
+        block.append(lo + len(block))
+    return lo, block
+
+
+def _insert_import(body: list[cst.BaseStatement], new: cst.SimpleStatementLine) -> list[cst.BaseStatement]:
+    lo, block = _leading_block(body)
+    node = _import_line(new)
+    assert node is not None
+    key = _sort_key(node)
+    before = [i for i in block if _sort_key(_import_line(body[i])) <= key]  # type: ignore[arg-type]
+    if before:
+        return [*body[: before[-1] + 1], new, *body[before[-1] + 1 :]]
+    if lo >= len(body):
+        return [*body, new]
+    # New first line of the block (or of the code): blank lines above stay above, comments stay with their code.
+    head = body[lo]
+    lines = list(head.leading_lines)
+    blanks = next((i for i, ln in enumerate(lines) if ln.comment is not None), len(lines))
+    gap = 1 if block else (2 if isinstance(head, (cst.FunctionDef, cst.ClassDef)) else 1)
+    head = head.with_changes(leading_lines=[*([] if block else [cst.EmptyLine()] * gap), *lines[blanks:]])
+    return [*body[:lo], new.with_changes(leading_lines=lines[:blanks]), head, *body[lo + 1 :]]
+
+
+def _merge_from_import(body: list[cst.BaseStatement], new: cst.SimpleStatementLine) -> list[cst.BaseStatement] | None:
+    """Add `name` to an existing one-line `from M import a, b` instead of a second `from M` line."""
+    node = _import_line(new)
+    if not isinstance(node, cst.ImportFrom) or isinstance(node.names, cst.ImportStar):
+        return None
+    for i, stmt in enumerate(body):
+        old = _import_line(stmt)
+        if (isinstance(old, cst.ImportFrom) and not isinstance(old.names, cst.ImportStar) and old.lpar is None
+                and _sort_key(old) == _sort_key(node) and not _is_future(old)):
+            names = list(old.names)
+            names[-1] = names[-1].with_changes(comma=cst.Comma(whitespace_after=cst.SimpleWhitespace(" ")))
+            names.extend(a.with_changes(comma=cst.MaybeSentinel.DEFAULT) for a in node.names)
+            merged = stmt.with_changes(body=[old.with_changes(names=names)])  # type: ignore[attr-defined]
+            return [*body[:i], merged, *body[i + 1 :]]
+    return None

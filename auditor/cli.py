@@ -38,6 +38,7 @@ def _common(p: argparse.ArgumentParser, measuring: bool) -> None:
     p.add_argument("--fail-on", choices=FAIL_LEVELS, help="lowest severity that makes the exit status 1")
     p.add_argument("--changed-since", metavar="REF", help="report only findings on lines changed since a git ref")
     p.add_argument("--config", metavar="PYPROJECT", help="read [tool.auditor] from this file")
+    p.add_argument("--cache", action=argparse.BooleanOptionalAction, help="reuse per-file scan results (docs/ci.md)")
     if measuring:
         p.add_argument("--samples", type=int, metavar="N", help="input samples per finding (default 256)")
         p.add_argument("--seed", type=int, metavar="N", help="random seed for sampled inputs (default 0)")
@@ -85,6 +86,7 @@ def resolve_config(args: argparse.Namespace) -> Config:
         "jobs": args.jobs,
         "baseline": args.baseline,
         "changed_since": args.changed_since,
+        "cache": args.cache,
         "samples": getattr(args, "samples", None),
         "seed": getattr(args, "seed", None),
     }

@@ -14,7 +14,8 @@ from auditor.config import Config
 from auditor.directives import parse_directives
 from auditor.model import FileError, Finding, Report, Rewrite, Span, Stats
 from auditor.rule import PARENT, Context, Hit, Rule
-from auditor.sources import SourceRef, SourceText, discover, read_source
+from auditor.cache import ResultCache, default_folder, entry_key
+from auditor.sources import SourceRef, SourceText, decode, discover, read_bytes
 
 
 @dataclass(frozen=True, slots=True)
@@ -173,13 +174,23 @@ def scan_text(text: str, path: str, rules: Sequence[Rule]) -> FileResult:
     return FileResult(path, tuple(_with_fingerprints(findings)), tuple(errors), n_lines)
 
 
-def scan_source_ref(ref: SourceRef, rule_ids: Sequence[str]) -> FileResult:
-    """Read, decode and scan one file; every failure becomes a FileError."""
-    source = read_source(ref)
+def scan_source_ref(ref: SourceRef, rule_ids: Sequence[str], cache: ResultCache | None = None) -> FileResult:
+    """Read, decode and scan one file (or take it from the cache); every failure becomes a FileError."""
+    data = read_bytes(ref)
+    if isinstance(data, FileError):
+        return FileResult(ref.display, (), (data,), 0)
+    key = entry_key(data, ref.display, rule_ids) if cache is not None and ref.location != "-" else None
+    cached = cache.get(key) if cache is not None and key is not None else None
+    if cached is not None:
+        return cached
+    source = decode(ref, data)
     if isinstance(source, FileError):
-        return FileResult(ref.display, (), (source,), 0)
-    rules = [r for r in load_catalog() if r.id in rule_ids]
-    return scan_loaded(source, rules)
+        result = FileResult(ref.display, (), (source,), 0)
+    else:
+        result = scan_loaded(source, [r for r in load_catalog() if r.id in rule_ids])
+    if cache is not None and key is not None:
+        cache.put(key, result)
+    return result
 
 
 def scan_loaded(source: SourceText, rules: Sequence[Rule]) -> FileResult:
@@ -190,18 +201,20 @@ def scan_loaded(source: SourceText, rules: Sequence[Rule]) -> FileResult:
     return scan_text(source.text, source.ref.display, rules)
 
 
-def _scan_batch(refs: Sequence[SourceRef], rule_ids: Sequence[str]) -> list[FileResult]:
-    return [scan_source_ref(ref, rule_ids) for ref in refs]
+def _scan_batch(refs: Sequence[SourceRef], rule_ids: Sequence[str], cache: ResultCache | None = None) -> list[FileResult]:
+    return [scan_source_ref(ref, rule_ids, cache) for ref in refs]
 
 
-def scan_refs(refs: Sequence[SourceRef], rule_ids: Sequence[str], jobs: int = 1) -> list[FileResult]:
+def scan_refs(
+    refs: Sequence[SourceRef], rule_ids: Sequence[str], jobs: int = 1, cache: ResultCache | None = None
+) -> list[FileResult]:
     """Scan files, in worker processes when jobs > 1; results in the order of `refs`."""
     if jobs <= 1 or len(refs) < 2 or any(r.location == "-" for r in refs):
-        return _scan_batch(refs, rule_ids)
+        return _scan_batch(refs, rule_ids, cache)
     chunk = max(1, min(32, len(refs) // (jobs * 4) or 1))
     batches = [refs[i : i + chunk] for i in range(0, len(refs), chunk)]
     with ProcessPoolExecutor(max_workers=jobs) as pool:
-        parts = pool.map(_scan_batch, batches, [rule_ids] * len(batches))
+        parts = pool.map(_scan_batch, batches, [rule_ids] * len(batches), [cache] * len(batches))
         return [result for part in parts for result in part]
 
 
@@ -224,7 +237,8 @@ def scan_paths(paths: Sequence[str], config: Config | None = None) -> Report:
     started = time.perf_counter()
     config = config or Config()
     refs, errors = discover(paths, config.exclude, base=None)
-    results = scan_refs(refs, enabled_rule_ids(config), config.jobs)
+    cache = ResultCache(default_folder()) if config.cache else None
+    results = scan_refs(refs, enabled_rule_ids(config), config.jobs, cache)
     report = build_report(results, errors, started)
     if config.baseline:
         report = apply_baseline(report, config.baseline)

@@ -1,0 +1,108 @@
+"""Digits lost, relative componentwise condition number, and the verdict (formulas: CONTRACT.md)."""
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from typing import Any
+
+import mpmath
+import numpy as np
+
+from auditor.model import Verdict
+
+#: -log10 of the unit roundoff: 2^-53 for float64, 2^-24 for float32 (CONTRACT.md).
+DIGITS_FLOAT64 = 15.95
+DIGITS_FLOAT32 = 7.22
+#: Below this many digits lost a unit is benign (reporting threshold).
+BENIGN_BELOW = 2.0
+#: Loss beyond what the condition number explains, in digits, that makes a unit unstable.
+UNSTABLE_EXCESS = 2.0
+#: Relative step of the forward difference used for derivatives (see `condition_log10`).
+STEP_BITS = 30
+LARGEST = 1.7976931348623157e308
+SMALLEST_NORMAL = 2.2250738585072014e-308
+
+
+def digits_of(value: Any) -> float:
+    """Decimal digits the float type of `value` carries: 7.22 for float32, else 15.95."""
+    dtype = getattr(value, "dtype", None)
+    if dtype is not None and dtype in (np.float32, np.complex64):
+        return DIGITS_FLOAT32
+    return DIGITS_FLOAT64
+
+
+def is_finite_number(value: Any) -> bool:
+    try:
+        return bool(np.isfinite(complex(value)))
+    except (TypeError, ValueError, OverflowError):
+        return False
+
+
+def digits_lost(float_value: Any, reference: Any, digits: float = DIGITS_FLOAT64) -> float:
+    """max(0, digits + log10(|float - ref| / |ref|)) (CONTRACT.md), capped at `digits`.
+
+    The cap says "no correct digit left": a relative error above 1 carries no more information.
+    When ref == 0 exactly, a float 0 loses nothing and anything else loses every digit.
+    """
+    if not is_finite_number(float_value):
+        return digits
+    if reference == 0:
+        return 0.0 if float_value == 0 else digits
+    if _as_float(reference) == float_value:
+        return 0.0  # correctly rounded: the error is at most half an ulp, 2^-53 relative
+    rel = abs(mpmath.mpmathify(_as_plain(float_value)) - reference) / abs(reference)
+    if rel == 0:
+        return 0.0
+    return min(digits, max(0.0, digits + float(mpmath.log10(rel))))
+
+
+def _as_plain(value: Any) -> Any:
+    if isinstance(value, (complex, np.complexfloating)):
+        return complex(value)
+    return float(value)
+
+
+def _as_float(reference: Any) -> float | complex:
+    try:
+        return float(reference)
+    except TypeError:
+        return complex(reference)
+
+
+def out_of_range(reference: Any) -> bool:
+    """True when the exact result itself overflows or underflows float64 (no arithmetic can help)."""
+    size = abs(reference)
+    return size > LARGEST or (size != 0 and size < SMALLEST_NORMAL)
+
+
+def condition_log10(base: Any, shifted: Sequence[Any]) -> float | None:
+    """log10 of sum_i |x_i df/dx_i| / |f| from forward differences f(x_i (1 + 2^-STEP_BITS)).
+
+    Evaluated at a precision where f is good to 30 digits, so the difference keeps about
+    30 - STEP_BITS*log10(2) = 21 digits and the O(h) truncation error is about 1e-9 relative:
+    ample for a condition number reported to one decimal.
+    """
+    if base == 0:
+        return math.inf if any(s != 0 for s in shifted) else None
+    scale = 2**STEP_BITS
+    total = mpmath.fsum(abs(s - base) for s in shifted) * scale / abs(base)
+    if total == 0:
+        return -math.inf
+    return float(mpmath.log10(total))
+
+
+def explained(condition: float | None) -> float:
+    """Digits of loss the condition number accounts for (never negative)."""
+    if condition is None or condition != condition:
+        return 0.0
+    return max(0.0, condition)
+
+
+def verdict(losses: Sequence[float], conditions: Sequence[float | None]) -> Verdict:
+    """unstable: loss exceeds log10(cond) by more than UNSTABLE_EXCESS digits somewhere;
+    ill-conditioned: a loss at or above the threshold that the condition number explains;
+    benign: every sample loses fewer than BENIGN_BELOW digits."""
+    if not losses or max(losses) < BENIGN_BELOW:
+        return Verdict.BENIGN
+    excess = max(d - explained(c) for d, c in zip(losses, conditions))
+    return Verdict.UNSTABLE if excess > UNSTABLE_EXCESS else Verdict.ILL_CONDITIONED

@@ -28,7 +28,7 @@ class Converged:
     bits: int  #: the precision that produced it
 
 
-def agree(a: Any, b: Any, digits: int = AGREE_DIGITS) -> bool:
+def agree(a: Any, b: Any, digits: float = AGREE_DIGITS) -> bool:
     """True when a and b share `digits` significant digits (both exactly 0 also agree)."""
     if isinstance(a, (tuple, list)) or isinstance(b, (tuple, list)):
         return len(a) == len(b) and all(agree(x, y, digits) for x, y in zip(a, b))

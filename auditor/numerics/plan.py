@@ -1,0 +1,140 @@
+"""Choose a unit's inputs, in the contract's order: recorded values, the domain (comment or
+config), literal arguments at call sites, defaults and annotations, else an assumed box."""
+from __future__ import annotations
+
+import ast
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+from auditor.numerics.inputs import Range, parse_domain, sample_points
+
+_INT_FUNCS = {"range", "factorial", "comb", "perm", "isqrt"}
+_SELF = ("self", "cls")
+
+
+@dataclass(frozen=True, slots=True)
+class InputPlan:
+    points: list[dict[str, Any]]
+    reason: str  #: where the inputs came from, in words (assumptions stated)
+
+
+def integer_names(function: ast.FunctionDef | None, expr: ast.AST | None = None) -> set[str]:
+    """Inputs that must be integers: annotated `int`, with an int default, or used as a count
+    (argument of range(), factorial(), comb())."""
+    out: set[str] = set()
+    roots = [n for n in (function, expr) if n is not None]
+    if function is not None:
+        args = function.args
+        positional = [*args.posonlyargs, *args.args]
+        for a in (*positional, *args.kwonlyargs):
+            if isinstance(a.annotation, ast.Name) and a.annotation.id == "int":
+                out.add(a.arg)
+        for a, d in zip(positional[len(positional) - len(args.defaults):], args.defaults):
+            if isinstance(d, ast.Constant) and type(d.value) is int:
+                out.add(a.arg)
+    for root in roots:
+        for node in ast.walk(root):
+            if isinstance(node, ast.Call):
+                name = node.func.id if isinstance(node.func, ast.Name) else getattr(node.func, "attr", "")
+                if name in _INT_FUNCS:
+                    out |= {n.id for a in node.args for n in ast.walk(a) if isinstance(n, ast.Name)}
+    return out
+
+
+def literal_defaults(function: ast.FunctionDef | None) -> dict[str, Any]:
+    """Parameters whose default is a number literal (kept fixed at that value)."""
+    if function is None:
+        return {}
+    args = function.args
+    positional = [*args.posonlyargs, *args.args]
+    pairs = list(zip(positional[len(positional) - len(args.defaults):], args.defaults))
+    pairs += [(a, d) for a, d in zip(args.kwonlyargs, args.kw_defaults) if d is not None]
+    out: dict[str, Any] = {}
+    for a, d in pairs:
+        value = _literal(d)
+        if value is not None:
+            out[a.arg] = value
+    return out
+
+
+def _literal(node: ast.AST) -> Any:
+    if isinstance(node, ast.UnaryOp) and isinstance(node.op, (ast.USub, ast.UAdd)):
+        inner = _literal(node.operand)
+        return None if inner is None else (-inner if isinstance(node.op, ast.USub) else inner)
+    if isinstance(node, ast.Constant) and type(node.value) in (int, float):
+        return node.value
+    return None
+
+
+def _typed(value: Any, integer: bool) -> Any:
+    return int(value) if integer else float(value)
+
+
+def _around(values: Sequence[float], integer: bool) -> Range:
+    """A neighbourhood of call-site values: within a factor 2 (integers: exactly their span)."""
+    lo, hi = min(values), max(values)
+    if integer:
+        return Range(lo, hi, True)
+    lo = lo / 2 if lo > 0 else lo * 2
+    hi = hi * 2 if hi > 0 else hi / 2
+    return Range(lo, hi, False)
+
+
+def plan_inputs(
+    names: Sequence[str],
+    function: ast.FunctionDef | None,
+    expr: ast.AST | None,
+    domain_text: str | None,
+    call_points: Sequence[Mapping[str, float]],
+    recorded: Sequence[Mapping[str, float]] | None,
+    samples: int,
+    seed: int,
+) -> InputPlan:
+    """Points for every input name, and the reason that says where they came from."""
+    integers = integer_names(function, expr)
+    fixed: dict[str, Any] = {n: None for n in names if n in _SELF}
+    todo = [n for n in names if n not in fixed]
+    if recorded:
+        points = [{**fixed, **{n: _typed(p[n], n in integers) for n in todo if n in p}} for p in recorded]
+        missing = [n for n in todo if any(n not in p for p in recorded)]
+        if not missing:
+            return InputPlan(points, f"inputs: {len(points)} recorded point(s)")
+    reasons: list[str] = []
+    ranges: dict[str, Range] = {}
+    if domain_text:
+        given = parse_domain(domain_text)
+        for n in todo:
+            if n in given:
+                r = given[n]
+                ranges[n] = Range(r.lo, r.hi, r.integer and n in integers)
+        if ranges:
+            reasons.append(f"domain {domain_text.strip()}")
+    todo = [n for n in todo if n not in ranges]
+    exact: list[dict[str, Any]] = []
+    covered = sorted({n for p in call_points for n in p if n in todo})
+    if covered:
+        for n in covered:
+            ranges[n] = _around([float(p[n]) for p in call_points if n in p], n in integers)
+        exact = [{n: _typed(p[n], n in integers) for n in covered if n in p} for p in call_points]
+        reasons.append(f"{', '.join(covered)} from {len(call_points)} call site(s) with literal arguments and within a factor 2 of them")
+    todo = [n for n in todo if n not in covered]
+    defaults = literal_defaults(function)
+    for n in [n for n in todo if n in defaults]:
+        fixed[n] = defaults[n]
+        reasons.append(f"{n}={defaults[n]!r} (its default)")
+    todo = [n for n in todo if n not in defaults]
+    for n in [n for n in todo if n in integers]:
+        ranges[n] = Range(0, 50, True)
+        reasons.append(f"{n} assumed an integer in 0..50")
+    assumed = [n for n in todo if n not in integers]
+    if assumed:
+        reasons.append(f"{', '.join(assumed)} assumed (no domain given): |value| log-uniform in 1e-12..1e12, both signs, plus points near 0, 1 and large")
+    count = 1 if not assumed and all(r.lo == r.hi for r in ranges.values()) and not exact else samples
+    points = sample_points(ranges, assumed, fixed, count, seed)
+    for n, r in ranges.items():
+        if r.integer:
+            for p in points:
+                p[n] = int(p[n])
+    points = [{**points[i % len(points)], **e} for i, e in enumerate(exact)] + points[: max(0, count - len(exact))]
+    return InputPlan(points, "inputs: " + "; ".join(reasons) if reasons else "inputs: none (a constant unit)")

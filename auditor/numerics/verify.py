@@ -1,0 +1,38 @@
+"""Verify a rewrite against the original on the same samples (both measured by the dynamic pass)."""
+from __future__ import annotations
+
+from collections.abc import Sequence
+
+from auditor.numerics import metrics as mx
+from auditor.numerics.reference import agree
+from auditor.numerics.run import Sample
+
+#: After the rewrite, the worst loss may exceed what the condition number explains by this much.
+WITHIN_CONDITION = 1.0
+#: No sample may get worse than this many digits.
+WORSE_ALLOWED = 0.5
+#: The rewrite must compute the same function: its reference may differ from the original's by
+#: less than one float64 unit roundoff (2^-52 relative), so a float user cannot tell them apart;
+#: this admits replacing a truncated series by its closed form.
+SAME_VALUE_DIGITS = 15.65
+
+
+def verify_rewrite(before: Sequence[Sample], after: Sequence[Sample]) -> tuple[bool, str]:
+    """(verified, why). Verified only if the rewrite computes the same values, its worst loss
+    is within WITHIN_CONDITION digits of what the condition number explains, and no sample
+    gets worse by more than WORSE_ALLOWED digits."""
+    pairs = [(b, a) for b, a in zip(before, after) if b.digits_lost is not None]
+    if not pairs:
+        return False, "no sample measured"
+    for b, a in pairs:
+        if a.digits_lost is None:
+            return False, f"the rewrite could not be measured at {b.inputs} ({a.note or 'excluded'})"
+        if not agree(b.reference, a.reference, SAME_VALUE_DIGITS):
+            return False, f"the rewrite computes a different value at {b.inputs}"
+    excess = max((a.digits_lost or 0.0) - mx.explained(b.condition_log10) for b, a in pairs)
+    worse = max((a.digits_lost or 0.0) - (b.digits_lost or 0.0) for b, a in pairs)
+    if excess > WITHIN_CONDITION:
+        return False, f"the rewrite still loses {excess:.1f} digits more than the condition number explains"
+    if worse > WORSE_ALLOWED:
+        return False, f"the rewrite is worse by {worse:.1f} digits at some input"
+    return True, "verified on the same samples"

@@ -4,8 +4,12 @@ When the terms of a series change sign, partial sums can grow far beyond the fin
 before they shrink back to it. Each partial sum carries a rounding error relative to its own
 size, so the result loses about log10(max |partial sum| / |result|) digits. The Taylor series
 of e^-x summed at x = 10 passes through terms near 2.7e3 to reach 4.5e-5, losing about eight of
-sixteen digits (common practice). Remedies: evaluate the library function; for e^-x sum the
+sixteen digits (common practice). The same holds for a sign factor `(-1)**k`, a negative base
+`(-x)**k`, a sign flipped each pass, a term recurrence with a negative ratio (`t *= -x / k`),
+parity branches, sign arrays combined with `np.dot`, and for two positive partial sums (even
+and odd terms) subtracted afterwards. Remedies: evaluate the library function; for e^-x sum the
 positive series for e^x and invert it; regroup terms in pairs; or sum in higher precision.
+Series that converge only for |x| < 1 (atan, log(1 + x)) lose little and are reported as notes.
 """
 from __future__ import annotations
 
@@ -13,9 +17,9 @@ import ast
 from collections.abc import Iterator
 
 from auditor import Context, Example, Hit, Rule, Severity
-from auditor.series import accumulations, contains_sign_power, term_alternates
-
-_SUMS = ("sum", "fsum", "nansum")
+from auditor import patterns as p
+from auditor import series as s
+from auditor.series import MAGNITUDE, loop_rewrite, severity_for, summed_term, vector_alternates
 
 
 class AlternatingSeries(Rule):
@@ -23,54 +27,140 @@ class AlternatingSeries(Rule):
     title = "alternating series summed directly"
     severity = Severity.WARNING
     summary = "a sum of terms of alternating sign: large partial sums cancel and digits are lost"
-    node_types = (ast.For, ast.While, ast.Call)
+    node_types = (ast.For, ast.While, ast.Call, ast.BinOp)
     method = (
         "Summation error bounds in N. J. Higham, Accuracy and Stability of Numerical Algorithms, "
-        "2nd ed., SIAM 2002, chapter 4; e^-x = 1/e^x from the positive series, a standard textbook "
-        "remedy (common practice)"
+        "2nd ed., SIAM 2002, chapter 4 (from memory); e^-x = 1/e^x from the positive series, a standard "
+        "textbook remedy (common practice); library elementary functions per C99/IEEE 754 libm"
     )
+    rewrite_template = "{acc} = math.exp(-{x})"
     examples = (
         Example(
-            "def exp_neg(x, n=60):\n    s = 0.0\n    t = 1.0\n    for k in range(1, n):\n"
+            "import math\ndef exp_neg(x, n=60):\n    s = 0.0\n    t = 1.0\n    for k in range(1, n):\n"
             "        s += t\n        t *= -x / k\n    return s\n",
             True,
+            rewrite="s = math.exp(-x)",
             inputs={"x": 10.0},
         ),
-        Example("import math\ndef f(x):\n    return sum((-1)**k * x**(2*k+1) / math.factorial(2*k+1) for k in range(20))\n", True),
+        Example(
+            "import math\ndef f(x):\n    return sum((-1)**k * x**(2*k+1) / math.factorial(2*k+1) for k in range(20))\n",
+            True,
+            rewrite="math.sin(x)",
+            inputs={"x": 20.0},
+        ),
+        Example(
+            "import numpy as np\nfrom scipy.special import factorial\ndef cosine(x, n=30):\n    k = np.arange(n)\n"
+            "    return np.sum((-1.0)**k * x**(2*k) / factorial(2*k))\n",
+            True,
+            rewrite="np.cos(x)",
+        ),
         Example(
             "def g(x):\n    s, sign, p = 0.0, 1.0, x\n    for k in range(1, 40):\n        s += sign * p / k\n"
             "        sign = -sign\n        p *= x\n    return s\n",
             True,
+            rewrite="s = math.log1p(x)",
+            note="log(1 + x) series: a note, it only loses digits near |x| = 1",
         ),
         Example("import numpy as np\ndef h(x):\n    k = np.arange(30)\n    return np.sum((-x)**k / (k + 1))\n", True),
         Example(
+            "import math\ndef sine(x):\n    s, t = 0.0, x\n    for k in range(1, 30):\n        s += t\n"
+            "        t = -t * x * x / ((2*k) * (2*k + 1))\n    return s\n",
+            True,
+            rewrite="s = math.sin(x)",
+        ),
+        Example(
             "def exp_pos(x, n=60):\n    s = 0.0\n    t = 1.0\n    for k in range(1, n):\n"
-            "        s += t\n        t *= x / k\n    return s\n",
+            "        s += t\n        t *= x / k\n    return 1.0 / s\n",
             False,
-            note="positive series: no cancellation",
+            note="positive series, then inverted: the stable way to keep a series for e^-x",
         ),
         Example("def total(xs):\n    s = 0.0\n    for v in xs:\n        s += v\n    return s\n", False),
+        Example(
+            "from math import comb\ndef derangements(n):\n    return sum((-1)**k * comb(n, k) * (n - k) ** 3 for k in range(n + 1))\n",
+            False,
+            note="integer terms: Python ints are exact",
+        ),
+        Example(
+            "def horner(c, x):\n    s = 0.0\n    for a in reversed(c):\n        s = s * (-x) + a\n    return s\n",
+            False,
+        ),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
-        if isinstance(node, ast.Call):
+        if isinstance(node, (ast.For, ast.While)):
+            yield from self._loop(node, ctx)
+        elif isinstance(node, ast.Call) or (isinstance(node, ast.BinOp) and isinstance(node.op, ast.MatMult)):
             yield from self._vectorised(node, ctx)
-            return
-        assert isinstance(node, (ast.For, ast.While))
-        for acc in accumulations(node):
-            why = term_alternates(ctx, node, acc.term)
-            if why is not None:
-                yield Hit(node, f"alternating series ({why}): partial sums larger than the result cancel, "
-                          "losing about log10(max partial sum / result) digits; use the closed form or library "
-                          "function, or sum a positive series and invert it")
-                return
 
-    def _vectorised(self, node: ast.Call, ctx: Context) -> Iterator[Hit]:
-        is_sum = ctx.family(node) in _SUMS or (isinstance(node.func, ast.Name) and node.func.id == "sum")
-        if not is_sum or not node.args:
+    def _loop(self, loop: ast.For | ast.While, ctx: Context) -> Iterator[Hit]:
+        ints = s.integer_names(ctx, loop)
+        for acc in s.accumulations(loop):
+            if ctx.enclosing_loops(acc.stmt)[:1] != [loop] or acc.target in s.index_names(loop):
+                continue
+            why = s.alternation(ctx, loop, acc)
+            if why is None or s.growth(ctx, loop, acc) is not None or s.is_integer_term(ctx, acc.term, ints):
+                continue
+            known = s.recognise_loop(ctx, loop, acc.target)
+            rewrite, imports, fix = loop_rewrite(ctx, loop, acc.target, known)
+            yield Hit(loop, _message(known, why, fix), severity_for(ctx, loop, acc, known), rewrite, imports)
             return
-        arg = node.args[0]
-        inner = arg.elt if isinstance(arg, (ast.GeneratorExp, ast.ListComp)) else ctx.origin(arg)
-        if contains_sign_power(ctx, inner):
-            yield Hit(node, "alternating series (an explicit sign factor): terms of both signs cancel and the "
-                      "result loses about log10(max partial sum / result) digits; use the closed form or library function")
+        twin = s.subtracted_twin(ctx, loop)
+        if twin is not None:
+            yield Hit(loop, f"positive partial sums later subtracted (`{p.text(ctx, twin)}`, line {twin.lineno}) "
+                      "cancel exactly as the alternating series does; use the library function, or form the "
+                      "difference term by term in pairs")
+
+    def _vectorised(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        found = summed_term(ctx, node)
+        if found is None:
+            return
+        term, idx, ints = found
+        if vector_alternates(ctx, term, idx) and s.factorial_weight(ctx, term, idx) <= 0:
+            if s.is_integer_term(ctx, term, ints):
+                return
+            known = _recognise_vector(ctx, node, idx)
+            fix, rewrite, imports = "use the closed form or library function", None, ()
+            if known is not None:
+                call = s.library_call(ctx, known.kind, known.var, s.module_for(ctx, node))
+                if call is not None:
+                    rewrite, imports = call
+                    fix = f"use `{rewrite}`"
+            severity = Severity.NOTE if known is not None and known.kind in ("atan", "log1p") else None
+            if known is None and s.factorial_weight(ctx, term, idx) == 0:
+                severity = Severity.NOTE
+            yield Hit(node, _message(known, "an explicit sign factor", fix), severity, rewrite, imports)
+        elif isinstance(node, ast.Call) and s.positive_sum_call(ctx, node):
+            twin = s.subtracted_twin(ctx, node)
+            if twin is not None:
+                yield Hit(node, f"positive series later subtracted (`{p.text(ctx, twin)}`, line {twin.lineno}) "
+                          "cancel exactly as the alternating series does; use the library function")
+
+
+def _recognise_vector(ctx: Context, node: ast.AST, idx: set[str]) -> s.Recognised | None:
+    if isinstance(node, ast.Call) and node.args and isinstance(node.args[0], (ast.GeneratorExp, ast.ListComp)):
+        return s.recognise_generator(ctx, node, node.args[0])
+    found = summed_term(ctx, node)
+    if found is None:
+        return None
+    aranges = {}
+    for name in idx:
+        origin = _arange_of(ctx, node, name)
+        if origin is not None:
+            aranges[name] = origin
+    return s.recognise_array(ctx, node, found[0], aranges)
+
+
+def _arange_of(ctx: Context, node: ast.AST, name: str) -> ast.Call | None:
+    b = ctx.flow(ctx.scope(node)).reaching(name, getattr(node, "lineno", 0), getattr(node, "col_offset", 0))
+    if b is not None and isinstance(b.value, ast.Call) and ctx.family(b.value) == "arange":
+        return b.value
+    return None
+
+
+def _message(known: s.Recognised | None, why: str, fix: str) -> str:
+    if known is None:
+        return (f"alternating series ({why}): partial sums larger than the result cancel, losing about "
+                f"log10(largest term / |sum|) digits; {fix}")
+    extra = " (or, to keep a series, sum the positive series x**k/k! and take 1/s)" if known.kind == "exp_neg" else ""
+    return f"{s.DESCRIBED[known.kind]} summed directly: {MAGNITUDE[known.kind]}; {fix}{extra}"
+

@@ -1,0 +1,123 @@
+"""Divergent (asymptotic) series summed past their smallest term.
+
+An asymptotic expansion such as E1(x) ~ e^-x/x * sum (-1)^k k!/x^k, erfc(x) ~ e^-x²/(x√π) *
+sum (-1)^k (2k-1)!!/(2x²)^k, or a Stirling-type series has terms whose ratio grows with the index
+(|t_k+1 / t_k| = k/x): they shrink while k < x and then grow without bound. Summed to its
+smallest term the series is as accurate as that term (optimal truncation, error of the order of
+the first omitted term); summed for a fixed count regardless of x, every term past the smallest
+adds error, and for x smaller than the count the result is garbage (at x = 2 the 20th term of the
+E1 series is 20!/2^20 ≈ 2.3e12). Stop when |term| starts to grow (`if abs(t_next) > abs(t):
+break`), or switch to a convergent method (continued fraction, library function) for small x.
+"""
+from __future__ import annotations
+
+import ast
+from collections.abc import Iterator
+
+from auditor import Context, Example, Hit, Rule, Severity
+from auditor import patterns as p
+from auditor import series as s
+
+_SMALL_COUNT = 4  #: a literal count up to this many terms needs unusual inputs to go wrong
+
+
+class DivergentSeries(Rule):
+    id = "divergent-series"
+    title = "divergent series summed past its smallest term"
+    severity = Severity.WARNING
+    summary = "terms whose ratio grows with the index (an asymptotic expansion) summed with no smallest-term stop"
+    node_types = (ast.For, ast.While, ast.Call)
+    method = (
+        "optimal truncation of asymptotic series: terms summed up to the smallest one, error of the order of "
+        "the first omitted term - DLMF §2.1 and C. M. Bender & S. A. Orszag, Advanced Mathematical Methods for "
+        "Scientists and Engineers, ch. 3 (from memory)"
+    )
+    rewrite_template = "the same loop with `if abs(t_next) > abs(t): break` before the term is updated"
+    examples = (
+        Example(
+            "def e1_tail(x, n=20):\n    s, t = 0.0, 1.0\n    for k in range(1, n):\n        s += t\n"
+            "        t *= -k / x\n    return s / x\n",
+            True,
+            rewrite=(
+                "for k in range(1, n):\n        s += t\n        t_next = t * (-k / x)\n"
+                "        if abs(t_next) > abs(t):\n            break\n        t = t_next"
+            ),
+            inputs={"x": 3.0},
+        ),
+        Example(
+            "import math\ndef tail(x):\n    s = 0.0\n    for k in range(30):\n"
+            "        s += (-1)**k * math.factorial(k) / x**(k + 1)\n    return s\n",
+            True,
+            rewrite=(
+                'prev_term = float("inf")\n    for k in range(30):\n        term = (-1)**k * math.factorial(k) / x**(k + 1)\n'
+                "        if abs(term) > abs(prev_term):\n            break\n        prev_term = term\n        s += term"
+            ),
+        ),
+        Example(
+            "def e1_tail(x, n=20):\n    s, t = 0.0, 1.0\n    for k in range(1, n):\n        s += t\n"
+            "        t_next = t * (-k / x)\n        if abs(t_next) > abs(t):\n            break\n        t = t_next\n"
+            "    return s / x\n",
+            False,
+            note="smallest-term stop: optimal truncation",
+        ),
+        Example(
+            "def exp_pos(x):\n    s, t = 0.0, 1.0\n    for k in range(1, 60):\n        s += t\n        t *= x / k\n    return s\n",
+            False,
+            note="convergent: the ratio x/k shrinks",
+        ),
+        Example(
+            "def tail(x):\n    if x < 40:\n        return None\n    s, t = 0.0, 1.0\n    for k in range(1, 8):\n"
+            "        s += t\n        t *= -k / x\n    return s / x\n",
+            False,
+            note="8 terms and x >= 40: the terms shrink throughout",
+        ),
+    )
+
+    def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        if isinstance(node, ast.Call):
+            yield from self._vectorised(node, ctx)
+            return
+        assert isinstance(node, (ast.For, ast.While))
+        idx = s.index_names(node)
+        for acc in s.accumulations(node):
+            if ctx.enclosing_loops(acc.stmt)[:1] != [node] or acc.target in idx:
+                continue
+            g = s.growth(ctx, node, acc)
+            if g is None:
+                continue
+            terms = {g.name} if g.name else set(p.names_in(acc.term)) - idx
+            if s.smallest_term_stop(node, terms, idx, set(g.xnames)):
+                return
+            bounded = s.bounded_below_x(ctx, node, set(g.xnames))
+            if bounded is True:
+                return
+            yield self._hit(ctx, node, acc, g)
+            return
+
+    def _hit(self, ctx: Context, loop: ast.For | ast.While, acc: s.Accumulation, g: s.Growth) -> Hit:
+        x = ", ".join(sorted(g.xnames)) or "x"
+        count = p.literal_number(s.range_stop(loop)) if s.range_stop(loop) is not None else None  # type: ignore[arg-type]
+        if g.name is not None and g.stmt is not None:
+            rewrite = s.guard_recurrence(ctx, loop, g.stmt, g.name)
+        else:
+            rewrite = s.guard_explicit(ctx, loop, acc.stmt, acc.target, acc.term, acc.subtract)
+        if isinstance(loop, ast.While) and count is None:
+            what = "the terms grow again once the index passes about |" + x + "|, so a tolerance test alone may never stop"
+        elif isinstance(count, int):
+            what = f"{count} terms are summed whatever {x} is, so for |{x}| below about {count} terms past the smallest one are added"
+        else:
+            what = f"the term count does not depend on {x}, so for |{x}| below the count terms past the smallest one are added"
+        severity = Severity.NOTE if isinstance(count, int) and count <= _SMALL_COUNT else None
+        return Hit(loop, f"divergent series (term ratio grows with the index): {what} and the error grows like those "
+                   "terms; stop at the smallest term (`if abs(t_next) > abs(t): break`) or use a convergent method for "
+                   f"small |{x}|", severity, rewrite)
+
+    def _vectorised(self, node: ast.Call, ctx: Context) -> Iterator[Hit]:
+        found = s.summed_term(ctx, node)
+        if found is None:
+            return
+        term, idx, _ = found
+        if idx and s.factorial_weight(ctx, term, idx) > 0:
+            yield Hit(node, "divergent series (factorial over a power): every term is summed whatever the argument, "
+                      "so past the smallest term the error grows factorially; sum in a loop that stops at the "
+                      "smallest term, or use a convergent method")

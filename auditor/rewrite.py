@@ -8,13 +8,14 @@ whose combined result does not parse is refused as a whole.
 from __future__ import annotations
 
 import ast
+import bisect
 from collections.abc import Iterable, Sequence
 from dataclasses import dataclass
 
 import libcst as cst
 
 from auditor.model import Span
-from auditor.splice import indent_variants, line_indent, line_starts, offsets, splice
+from auditor.splice import indent_variants, line_indent, line_starts, newline_of, offsets, splice
 
 
 @dataclass(frozen=True, slots=True)
@@ -43,6 +44,8 @@ class Outcome:
     skipped: tuple[Skipped, ...]
     imports_added: tuple[str, ...] = ()
     error: str | None = None  #: set when the file as a whole was refused
+    #: where each applied replacement sits in `text` (same order as `applied`)
+    new_spans: tuple[Span, ...] = ()
 
     @property
     def changed(self) -> bool:
@@ -78,10 +81,12 @@ def apply_edits(source: str, edits: Sequence[Edit]) -> Outcome:
     skipped: list[Skipped] = []
     located = _locate(source, edits, bound, skipped)
     placed = [p for p in (_lay_out(source, p, skipped) for p in _without_overlaps(located, skipped)) if p]
+    placed.sort(key=lambda p: p.start)
     text = source
-    for p in sorted(placed, key=lambda p: p.start, reverse=True):
+    for p in reversed(placed):
         text = splice(text, p.start, p.end, p.text)
-    applied = tuple(p.edit for p in sorted(placed, key=lambda p: p.start))
+    spliced = text
+    applied = tuple(p.edit for p in placed)
     needed = _needed_imports(applied, bound)
     if needed:
         try:
@@ -91,7 +96,27 @@ def apply_edits(source: str, edits: Sequence[Edit]) -> Outcome:
     complaint = parses(text)
     if complaint is not None:
         return _refuse(source, edits, skipped, f"the rewritten file would not parse ({complaint})")
-    return Outcome(text, applied, tuple(skipped), tuple(needed))
+    shift = len(line_starts(text)) - len(line_starts(spliced))
+    return Outcome(text, applied, tuple(skipped), tuple(needed), None, _new_spans(source, spliced, placed, shift))
+
+
+def _new_spans(source: str, spliced: str, placed: list[_Placed], shift: int) -> tuple[Span, ...]:
+    """Spans of the replacements in the result; imports only ever add lines above every span."""
+    out = []
+    delta = 0
+    for p in placed:
+        start = p.start + delta
+        end = start + len(p.text.replace("\n", newline_of(source, p.start)))
+        delta = end - p.end
+        (line, col), (end_line, end_col) = _position(spliced, start), _position(spliced, end)
+        out.append(Span(line + shift, col, end_line + shift, end_col))
+    return tuple(out)
+
+
+def _position(text: str, offset: int) -> tuple[int, int]:
+    starts = line_starts(text)
+    line = bisect.bisect_right(starts, offset)
+    return line, offset - starts[line - 1] + 1
 
 
 def _refuse(source: str, edits: Sequence[Edit], skipped: list[Skipped], why: str) -> Outcome:

@@ -299,3 +299,21 @@ def test_write_refuses_a_file_changed_meanwhile(tmp_path):
     target.write_bytes(b"x = 3\n")
     assert "changed on disk" in (write_plan(plan) or "")
     assert target.read_bytes() == b"x = 3\n"
+
+
+def test_new_spans_locate_each_replacement_in_the_result():
+    src = "def f(a, b):\r\n    x = a - b\r\n    for k in b:\r\n        x += k\r\n    return (a + 0) * x\r\n"
+    loop = "for k in b:\r\n        x += k"
+    edits = [edit(src, "a - b", "math.fsum([a, -b])", ("import math",)), edit(src, loop, "x = x + math.fsum(\n    b)"),
+             edit(src, "a + 0", "a")]
+    out = apply_edits(src, edits)
+    assert len(out.new_spans) == 3
+    lines = out.text.split("\r\n")
+    pieces = []
+    for span in out.new_spans:
+        if span.line == span.end_line:
+            pieces.append(lines[span.line - 1][span.column - 1 : span.end_column - 1])
+        else:
+            pieces.append("\r\n".join([lines[span.line - 1][span.column - 1 :], *lines[span.line : span.end_line - 1],
+                                       lines[span.end_line - 1][: span.end_column - 1]]))
+    assert pieces == ["math.fsum([a, -b])", "x = x + math.fsum(\r\n        b)", "a"]

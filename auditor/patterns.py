@@ -171,3 +171,171 @@ def is_integer_valued(ctx: Context, expr: ast.AST) -> bool:
 def has_free_names(expr: ast.AST) -> bool:
     """True when an expression reads some variable (it is not a constant)."""
     return any(isinstance(n, ast.Name) for n in ast.walk(expr))
+
+
+# --- shared by the statistics and linear-algebra rules (naive-variance ... normal-equations) ---
+
+#: reductions whose method spelling (`x.sum()`) means the same as the function (`np.sum(x)`)
+_REDUCTION_METHODS = ("sum", "mean", "cumsum", "prod", "nansum", "nanmean", "var", "std", "average")
+_REDUCTION_SYNONYMS = {"nansum": "sum", "nanmean": "mean", "average": "mean"}
+
+
+def spelled_qualified(ctx: Context, qualname: str) -> tuple[str, tuple[str, ...]]:
+    """Spell a dotted name such as 'numpy.linalg.solve' here, reusing the longest imported prefix.
+
+    `import numpy as np` gives `np.linalg.solve`; `import scipy.linalg as sla` gives `sla.solve`;
+    with no usable import it returns the full name and the `import` it needs.
+    """
+    for local, qual in ctx.imports.bindings.items():
+        if qual == qualname:
+            return local, ()
+    parts = qualname.split(".")
+    for cut in range(len(parts) - 1, 0, -1):
+        alias = module_alias(ctx, ".".join(parts[:cut]))
+        if alias is not None:
+            return ".".join([alias, *parts[cut:]]), ()
+    return qualname, (f"import {qualname.rpartition('.')[0]}",)
+
+
+def reduction(ctx: Context, node: ast.AST) -> tuple[str, ast.expr] | None:
+    """('sum' | 'mean' | 'cumsum' | ..., data) for `np.sum(x)`, `sum(x)`, `x.sum()`, `statistics.mean(x)`."""
+    if not isinstance(node, ast.Call):
+        return None
+    func = node.func
+    qual = ctx.qualname(func)
+    if qual in ("statistics.mean", "statistics.fmean"):
+        return ("mean", node.args[0]) if node.args else None
+    fam = ctx.family(node)
+    if fam == "fsum":
+        fam = "sum"
+    if fam in _REDUCTION_METHODS:
+        if fam == "average" and (len(node.args) > 1 or any(k.arg == "weights" for k in node.keywords)):
+            return None
+        return ((fam if fam != "average" else "mean"), node.args[0]) if node.args else None
+    if isinstance(func, ast.Name) and func.id == "sum" and func.id not in ctx.imports.bindings:
+        return ("sum", node.args[0]) if node.args else None
+    if isinstance(func, ast.Attribute) and func.attr in _REDUCTION_METHODS and qual is None and not node.args:
+        return (_REDUCTION_SYNONYMS.get(func.attr, func.attr), func.value)
+    return None
+
+
+
+def transposed(ctx: Context, node: ast.AST) -> ast.expr | None:
+    """A for `A.T`, `A.transpose()`, `np.transpose(A)`, `A.conj().T`, `A.H`, `A.mT`; else None."""
+    if isinstance(node, ast.Attribute) and node.attr in ("T", "H", "mT"):
+        base = node.value
+    elif isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute) and node.func.attr == "transpose" \
+            and not node.args and ctx.qualname(node.func) is None:
+        base = node.func.value
+    elif isinstance(node, ast.Call) and (ctx.qualname(node.func) or "").endswith(".transpose") and len(node.args) == 1:
+        base = node.args[0]
+    else:
+        return None
+    if isinstance(base, ast.Call) and isinstance(base.func, ast.Attribute) and base.func.attr in ("conj", "conjugate") \
+            and not base.args:
+        base = base.func.value
+    return base
+
+
+def product_pair(ctx: Context, node: ast.AST) -> tuple[ast.expr, ast.expr] | None:
+    """(a, b) for one matrix product `a @ b`, `np.dot(a, b)`, `np.matmul(a, b)` or `a.dot(b)`, else None."""
+    if isinstance(node, ast.BinOp) and isinstance(node.op, ast.MatMult):
+        return node.left, node.right
+    if isinstance(node, ast.Call) and ctx.family(node) in ("dot", "matmul") and len(node.args) == 2 and not node.keywords:
+        return node.args[0], node.args[1]
+    if isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute) and node.func.attr == "dot" \
+            and ctx.qualname(node.func) is None and len(node.args) == 1:
+        return node.func.value, node.args[0]
+    return None
+
+
+def product_factors(ctx: Context, node: ast.AST) -> list[ast.expr] | None:
+    """Flatten a matrix product chain (`@`, `np.dot`, `np.matmul`, `.dot`) into its factors, else None."""
+    pair = product_pair(ctx, node)
+    if pair is None:
+        return None
+    out: list[ast.expr] = []
+    for part in pair:
+        out.extend(product_factors(ctx, part) or [part])
+    return out
+
+
+def gram_base(ctx: Context, node: ast.expr) -> ast.expr | None:
+    """A when `node` (or the local it names) is the Gram matrix `A.T @ A` in any product spelling."""
+    factors = product_factors(ctx, ctx.origin(node))
+    if factors is None or len(factors) != 2:
+        return None
+    base = transposed(ctx, factors[0])
+    if base is not None and same_expr(base, factors[1]):
+        return base
+    return None
+
+
+def float_eps_value(ctx: Context, node: ast.AST) -> float | None:
+    """2**-52 for `np.finfo(float).eps`, `np.finfo(np.float64).eps`, `sys.float_info.epsilon`; else None."""
+    if not isinstance(node, ast.Attribute):
+        return None
+    if node.attr == "epsilon" and ctx.qualname(node.value) == "sys.float_info":
+        return 2.0 ** -52
+    if node.attr == "eps" and isinstance(node.value, ast.Call) and (ctx.qualname(node.value.func) or "").endswith(".finfo"):
+        arg = single_arg(node.value)
+        spelled_type = ctx.qualname(arg) if arg is not None else None
+        if isinstance(arg, ast.Name) and arg.id == "float" or spelled_type in ("numpy.float64", "numpy.double"):
+            return 2.0 ** -52
+        if spelled_type in ("numpy.float32", "numpy.single"):
+            return 2.0 ** -23
+        if spelled_type in ("numpy.float16", "numpy.half"):
+            return 2.0 ** -10
+    return None
+
+
+def constant_value(ctx: Context, node: ast.AST, depth: int = 6) -> float | None:
+    """The value of a constant expression (literals, machine epsilon, sqrt/cbrt, + - * / **, locals)."""
+    if depth <= 0:
+        return None
+    if isinstance(node, ast.Name):
+        origin = ctx.origin(node)
+        if origin is node:
+            origin = parameter_default(ctx, node)
+        return None if origin is None or origin is node else constant_value(ctx, origin, depth - 1)
+    v = literal_number(node)
+    if v is not None:
+        return float(v) if not isinstance(v, complex) else None
+    eps = float_eps_value(ctx, node)
+    if eps is not None:
+        return eps
+    if isinstance(node, ast.Call) and ctx.family(node) in ("sqrt", "cbrt") and single_arg(node) is not None:
+        inner = constant_value(ctx, node.args[0], depth - 1)
+        if inner is None or inner < 0:
+            return None
+        return inner ** 0.5 if ctx.family(node) == "sqrt" else inner ** (1 / 3)
+    if isinstance(node, ast.BinOp) and isinstance(node.op, (ast.Add, ast.Sub, ast.Mult, ast.Div, ast.Pow)):
+        a, b = constant_value(ctx, node.left, depth - 1), constant_value(ctx, node.right, depth - 1)
+        if a is None or b is None:
+            return None
+        try:
+            ops = {ast.Add: a + b, ast.Sub: a - b, ast.Mult: a * b}
+            if isinstance(node.op, ast.Div):
+                return a / b
+            if isinstance(node.op, ast.Pow):
+                result = a ** b
+                return float(result) if isinstance(result, (int, float)) else None
+            return ops[type(node.op)]
+        except (ZeroDivisionError, OverflowError, ValueError):
+            return None
+    return None
+
+
+def parameter_default(ctx: Context, name: ast.Name) -> ast.expr | None:
+    """The default value of the function parameter `name` reads (`def d(f, x, h=1e-6)`), else None."""
+    b = ctx.binding(name)
+    if b is None or not isinstance(b.stmt, ast.arg):
+        return None
+    func = ctx.scope(name)
+    if not isinstance(func, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
+        return None
+    args = func.args
+    positional = [*args.posonlyargs, *args.args]
+    pairs = list(zip(positional[len(positional) - len(args.defaults):], args.defaults))
+    pairs += [(a, d) for a, d in zip(args.kwonlyargs, args.kw_defaults) if d is not None]
+    return next((d for a, d in pairs if a is b.stmt), None)

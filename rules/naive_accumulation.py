@@ -1,0 +1,221 @@
+"""A long running float sum in a loop, `for v in values: total += v`, grows its rounding error with n.
+
+Recursive summation commits one rounding per addition, so the error bound grows like
+n * eps * sum|v|: about 1e-10 relative after a million readings, and far worse when the terms
+have mixed signs and the total is small. Pairwise summation (numpy's `np.sum` on contiguous
+float arrays) grows like log2(n) * eps, Kahan's compensated summation keeps the error near
+eps independent of n, and `math.fsum` returns the correctly rounded sum. Integer counters,
+short fixed loops, string or list building, series with a term recurrence or sign factor
+(the series rules report those) and accumulators never read after the loop are not flagged.
+"""
+from __future__ import annotations
+
+import ast
+from collections.abc import Iterator
+from dataclasses import dataclass
+
+from auditor import Context, Example, Hit, Rule, Severity
+from auditor import patterns as p
+
+#: a `range(k)` or literal sequence at most this long is a short fixed loop
+_SHORT = 64
+_NESTED = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)
+
+
+@dataclass(frozen=True, slots=True)
+class Accumulation:
+    """`s += term`, `s -= term` or `s = s + term` in a loop body."""
+
+    target: str
+    term: ast.expr
+    subtract: bool
+    stmt: ast.stmt
+
+
+def loop_statements(loop: ast.For) -> Iterator[ast.AST]:
+    """Every node in the loop body, nested scopes excluded."""
+    stack: list[ast.AST] = [*loop.body, *loop.orelse]
+    while stack:
+        node = stack.pop()
+        yield node
+        stack.extend(c for c in ast.iter_child_nodes(node) if not isinstance(c, _NESTED))
+
+
+def accumulations(loop: ast.For) -> list[Accumulation]:
+    """Additive updates of a single name inside the loop, in source order."""
+    found = []
+    for node in loop_statements(loop):
+        if isinstance(node, ast.AugAssign) and isinstance(node.target, ast.Name) and isinstance(node.op, (ast.Add, ast.Sub)):
+            found.append(Accumulation(node.target.id, node.value, isinstance(node.op, ast.Sub), node))
+        elif isinstance(node, ast.Assign) and len(node.targets) == 1 and isinstance(node.targets[0], ast.Name):
+            v, name = node.value, node.targets[0].id
+            if isinstance(v, ast.BinOp) and isinstance(v.op, (ast.Add, ast.Sub)) and isinstance(v.left, ast.Name) \
+                    and v.left.id == name:
+                found.append(Accumulation(name, v.right, isinstance(v.op, ast.Sub), node))
+    return sorted(found, key=lambda a: (a.stmt.lineno, a.stmt.col_offset))
+
+
+def rescaled_in_loop(loop: ast.For, name: str) -> bool:
+    """`t *= r`, `t /= k`, `t = -t * x / k` or `sign = -sign`: a term recurrence or sign flip."""
+    for node in loop_statements(loop):
+        if isinstance(node, ast.AugAssign) and isinstance(node.target, ast.Name) and node.target.id == name \
+                and isinstance(node.op, (ast.Mult, ast.Div)):
+            return True
+        if isinstance(node, ast.Assign) and any(isinstance(t, ast.Name) and t.id == name for t in node.targets):
+            v = node.value
+            if isinstance(v, ast.UnaryOp) and isinstance(v.op, ast.USub) or \
+                    isinstance(v, ast.BinOp) and isinstance(v.op, (ast.Mult, ast.Div)):
+                if name in p.names_in(v):
+                    return True
+    return False
+
+
+def short_fixed(loop: ast.For) -> bool:
+    """`for k in range(3)` or `for w in (a, b, c)`: too few additions to matter."""
+    it = loop.iter
+    if isinstance(it, (ast.Tuple, ast.List, ast.Set)):
+        return len(it.elts) <= _SHORT
+    if isinstance(it, ast.Call) and isinstance(it.func, ast.Name) and it.func.id == "range" and it.args:
+        bounds = [p.literal_number(a) for a in it.args[:2]]
+        if all(isinstance(b, int) for b in bounds):
+            return (bounds[-1] - (bounds[0] if len(bounds) == 2 else 0)) <= _SHORT  # type: ignore[operator]
+    return False
+
+
+def loop_names(loop: ast.For) -> set[str]:
+    """Names that change from pass to pass: the loop target and everything assigned in the body."""
+    names = p.names_in(loop.target) | {n.id for n in ast.walk(loop.target) if isinstance(n, ast.Name)}
+    for node in loop_statements(loop):
+        if isinstance(node, (ast.Assign, ast.AugAssign, ast.AnnAssign, ast.For)):
+            targets = node.targets if isinstance(node, ast.Assign) else [node.target]
+            names |= {n.id for t in targets for n in ast.walk(t) if isinstance(n, ast.Name)}
+    return names
+
+
+def float_evident(ctx: Context, expr: ast.expr) -> bool:
+    """True when an expression visibly computes in floating point."""
+    for n in ast.walk(expr):
+        if isinstance(n, ast.BinOp) and isinstance(n.op, (ast.Div, ast.Pow)):
+            return True
+        if isinstance(n, ast.Constant) and isinstance(n.value, float):
+            return True
+        if isinstance(n, ast.Call) and (ctx.family(n) is not None or isinstance(n.func, ast.Name) and n.func.id == "float"):
+            return True
+    return False
+
+
+def initial_value(ctx: Context, loop: ast.For, name: str) -> ast.expr | None:
+    """The value assigned to `name` last before the loop starts."""
+    before = [b for b in ctx.flow(ctx.scope(loop)).of(name) if (b.line, b.column) < (loop.lineno, loop.col_offset)]
+    return before[-1].value if before and before[-1].kind == "assign" else None
+
+
+def is_series(ctx: Context, loop: ast.For, term: ast.expr) -> bool:
+    """Terms of a series (the series rules' business): a recurrence, a sign factor, a power of the index."""
+    if any(rescaled_in_loop(loop, name) for name in p.names_in(term)):
+        return True
+    index = p.names_in(loop.target)
+    return any(
+        isinstance(n, ast.BinOp) and isinstance(n.op, ast.Pow) and bool(p.names_in(n.right) & index)
+        or isinstance(n, ast.BinOp) and isinstance(n.op, ast.Pow) and p.is_number(n.left, -1)
+        or isinstance(n, ast.Call) and ctx.family(n) in ("factorial", "gamma")
+        for n in ast.walk(term)
+    )
+
+
+def compensated(loop: ast.For, acc: Accumulation) -> bool:
+    """Kahan/Neumaier-style loops subtract the running total to recover the lost low part."""
+    for node in loop_statements(loop):
+        if isinstance(node, ast.BinOp) and isinstance(node.op, ast.Sub) and acc.target in p.names_in(node):
+            if not any(node is n for n in ast.walk(acc.stmt)):
+                return True
+    return False
+
+
+def read_after(ctx: Context, loop: ast.For, name: str) -> bool:
+    """True when the accumulator is read outside the loop (returned, stored, printed)."""
+    end = loop.end_lineno or loop.lineno
+    return any(
+        isinstance(n, ast.Name) and n.id == name and isinstance(n.ctx, ast.Load) and not loop.lineno <= n.lineno <= end
+        for n in ast.walk(ctx.scope(loop))
+    )
+
+
+def moments_loop(loop: ast.For, accs: list[Accumulation]) -> bool:
+    """`s += v; s2 += v * v`: a one-pass moments loop, which the naive-variance rule reports."""
+    terms = [ast.dump(a.term) for a in accs]
+    return any(p.is_square(a.term) is not None and ast.dump(p.is_square(a.term)) in terms for a in accs)  # type: ignore[arg-type]
+
+
+def wanted(ctx: Context, loop: ast.For, acc: Accumulation) -> bool:
+    if ctx.enclosing_loops(acc.stmt)[:1] != [loop]:
+        return False  # reported on the loop that performs the addition
+    init = initial_value(ctx, loop, acc.target)
+    if isinstance(init, (ast.List, ast.Tuple, ast.Dict, ast.Set, ast.JoinedStr)) or \
+            isinstance(init, ast.Constant) and isinstance(init.value, (str, bytes)):
+        return False
+    floaty = isinstance(init, ast.Constant) and isinstance(init.value, float) or float_evident(ctx, acc.term)
+    if not floaty or p.is_integer_valued(ctx, acc.term):
+        return False
+    if not p.names_in(acc.term) & loop_names(loop):
+        return False  # a fixed step: the step-accumulation rule's pattern
+    return not is_series(ctx, loop, acc.term) and not compensated(loop, acc) and read_after(ctx, loop, acc.target)
+
+
+def fsum_text(ctx: Context, loop: ast.For, acc: Accumulation) -> tuple[str | None, tuple[str, ...]]:
+    """`total += math.fsum(values)` when the loop does nothing but add one term per item."""
+    if len(loop.body) != 1 or loop.body[0] is not acc.stmt or loop.orelse or not isinstance(loop, ast.For):
+        return None, ()
+    fsum, imports = p.spelled(ctx, "math", "fsum")
+    target, it = p.text(ctx, loop.target), p.text(ctx, loop.iter)
+    if isinstance(acc.term, ast.Name) and isinstance(loop.target, ast.Name) and acc.term.id == loop.target.id:
+        body = f"{fsum}({it})"
+    else:
+        body = f"{fsum}({p.text(ctx, acc.term)} for {target} in {it})"
+    return f"{acc.target} {'-' if acc.subtract else '+'}= {body}", imports
+
+
+class NaiveAccumulation(Rule):
+    id = "naive-accumulation"
+    title = "long running float sum in a loop"
+    severity = Severity.NOTE
+    summary = "total += v over many items: error grows like n * eps; use math.fsum, np.sum or Kahan summation"
+    node_types = (ast.For,)
+    method = (
+        "Compensated summation (W. Kahan, Further remarks on reducing truncation errors, CACM 8(1), 1965) and "
+        "pairwise summation; error bounds in N. J. Higham, Accuracy and Stability of Numerical Algorithms, "
+        "2nd ed., SIAM 2002, chapter 4 (from memory)"
+    )
+    rewrite_template = "{total} += math.fsum({values})"
+    examples = (
+        Example("def total(values):\n    s = 0.0\n    for v in values:\n        s += v\n    return s\n", True,
+                "s += math.fsum(values)"),
+        Example("def energy(x, w):\n    e = 0.0\n    for i in range(len(x)):\n        e = e + w[i] * x[i]\n    return e\n",
+                True, "e += math.fsum(w[i] * x[i] for i in range(len(x)))"),
+        Example("def mean_flow(rows):\n    acc = 0\n    for r in rows:\n        if r.ok:\n            acc += r.flow / r.area\n"
+                "    return acc / len(rows)\n", True),
+        Example("def count(rows):\n    n = 0\n    for r in rows:\n        n += 1\n    return n\n", False),
+        Example("def f(a, b, c):\n    s = 0.0\n    for v in (a, b, c):\n        s += v\n    return s\n", False,
+                note="short fixed loop"),
+        Example("import math\ndef total(values):\n    return math.fsum(values)\n", False),
+        Example("def kahan(xs):\n    s = c = 0.0\n    for v in xs:\n        y = v - c\n        t = s + y\n"
+                "        c = (t - s) - y\n        s = t\n    return s\n", False, note="compensated"),
+        Example("def exp_series(x):\n    s, t = 0.0, 1.0\n    for k in range(1, 200):\n        s += t\n        t *= x / k\n"
+                "    return s\n", False, note="a series: the series rules decide"),
+    )
+
+    def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        assert isinstance(node, ast.For)
+        if short_fixed(node):
+            return
+        accs = accumulations(node)
+        if moments_loop(node, accs):
+            return
+        for acc in accs:
+            if wanted(ctx, node, acc):
+                rewrite, imports = fsum_text(ctx, node, acc)
+                fix = rewrite or "math.fsum, np.sum (pairwise) or Kahan summation"
+                yield Hit(node, f"the running sum `{acc.target}` commits one rounding per item, so its error can grow "
+                          f"like n*eps*sum|v| (1e-10 relative after 1e6 items, worse when terms cancel); use {fix}",
+                          rewrite=rewrite, imports=imports)
+                return

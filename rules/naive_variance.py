@@ -1,0 +1,202 @@
+"""Variance as the mean of squares minus the squared mean cancels catastrophically.
+
+E[x^2] - E[x]^2 subtracts two numbers of size mean^2 to leave one of size std^2, so it loses
+about 2 * log10(|mean| / std) digits: sensor readings near 1e4 with a spread of 1 lose eight
+of sixteen digits, and at a ratio of 1e8 the result is noise and can come out negative. The
+same holds for the textbook one-pass form (sum_sq - sum_x**2 / n) / (n - 1), for its loop
+version accumulating s and s2, and for the covariance twin E[xy] - E[x]E[y]. Two passes
+(subtract the mean, then average the squares: `np.var`, `statistics.pvariance`) or Welford's
+streaming update keep the digits.
+"""
+from __future__ import annotations
+
+import ast
+from collections.abc import Iterator
+
+from auditor import Context, Example, Hit, Rule, Severity
+from auditor import patterns as p
+
+#: (kind, factors): kind "mean" or "sum"; factors are (key, node) of the averaged data, 1 or 2 of them
+Moment = tuple[str, tuple[tuple[str, ast.expr], ...]]
+
+
+def data_key(ctx: Context, expr: ast.expr) -> tuple[str, ast.expr]:
+    """A comparable key for averaged data: a loop variable stands for what it iterates over."""
+    if isinstance(expr, ast.Subscript) and isinstance(expr.slice, ast.Name) and p.is_integer_valued(ctx, expr.slice):
+        return ast.dump(expr.value), expr.value
+    if isinstance(expr, ast.Name):
+        b = ctx.binding(expr)
+        if b is not None and b.kind == "loop" and b.value is not None:
+            return ast.dump(b.value), b.value
+    return ast.dump(expr), expr
+
+
+def factors_of(ctx: Context, term: ast.expr, comp: ast.comprehension | None = None) -> tuple[tuple[str, ast.expr], ...]:
+    """x**2 -> (x, x); x * y -> (x, y); x -> (x,). Comprehension targets stand for their iterable."""
+    def key(e: ast.expr) -> tuple[str, ast.expr]:
+        if comp is not None and isinstance(comp.target, ast.Name) and isinstance(e, ast.Name) and e.id == comp.target.id:
+            return ast.dump(comp.iter), comp.iter
+        return data_key(ctx, e)
+
+    base = p.is_square(term)
+    if base is None and isinstance(term, ast.Call) and ctx.family(term) == "square" and p.single_arg(term) is not None:
+        base = term.args[0]
+    if base is not None:
+        return (key(base), key(base))
+    if isinstance(term, ast.BinOp) and isinstance(term.op, ast.Mult):
+        return tuple(sorted((key(term.left), key(term.right)), key=lambda f: f[0]))
+    return (key(term),)
+
+
+def accumulated(ctx: Context, name: ast.Name) -> ast.expr | None:
+    """The term of `s += term` when `s` is a running sum built in a loop of this scope."""
+    terms = []
+    for b in ctx.flow(ctx.scope(name)).of(name.id):
+        if b.kind == "aug" and isinstance(b.op, ast.Add) and b.value is not None:
+            terms.append(b.value)
+        elif b.kind == "assign" and isinstance(b.value, ast.BinOp) and isinstance(b.value.op, ast.Add) \
+                and isinstance(b.value.left, ast.Name) and b.value.left.id == name.id:
+            terms.append(b.value.right)
+        elif not (b.kind == "assign" and b.value is not None and p.is_number(b.value, 0)):
+            return None
+    return terms[0] if len(terms) == 1 else None
+
+
+def moment(ctx: Context, expr: ast.expr, depth: int = 3) -> Moment | None:
+    """Recognise a sum or mean of data (or of products of data), through locals and loops."""
+    if depth <= 0:
+        return None
+    if isinstance(expr, ast.Name):
+        term = accumulated(ctx, expr)
+        if term is not None:
+            return "sum", factors_of(ctx, term)
+        origin = ctx.origin(expr)
+        return None if origin is expr else moment(ctx, origin, depth - 1)
+    found = p.reduction(ctx, expr)
+    if found is not None and found[0] in ("sum", "mean"):
+        kind, data = found
+        if isinstance(data, (ast.GeneratorExp, ast.ListComp)) and len(data.generators) == 1:
+            return kind, factors_of(ctx, data.elt, data.generators[0])
+        return kind, factors_of(ctx, data)
+    if isinstance(expr, ast.BinOp) and isinstance(expr.op, ast.Div):
+        inner = moment(ctx, expr.left, depth - 1)
+        if inner is not None and inner[0] == "sum":
+            return "mean", inner[1]
+    return None
+
+
+def moment_product(ctx: Context, expr: ast.expr, depth: int = 3) -> Moment | None:
+    """M**2 or M1 * M2 for first moments M: ('mean' | 'sum', the two factors)."""
+    expr = ctx.origin(expr) if isinstance(expr, ast.Name) else expr
+    base = p.is_square(expr)
+    if base is None and isinstance(expr, ast.Call) and ctx.family(expr) == "square" and p.single_arg(expr) is not None:
+        base = expr.args[0]
+    pair = (base, base) if base is not None else (
+        (expr.left, expr.right) if isinstance(expr, ast.BinOp) and isinstance(expr.op, ast.Mult) else None)
+    if pair is None:
+        return None
+    m1, m2 = moment(ctx, pair[0], depth), moment(ctx, pair[1], depth)
+    if m1 is None or m2 is None or m1[0] != m2[0] or len(m1[1]) != 1 or len(m2[1]) != 1:
+        return None
+    return m1[0], tuple(sorted((m1[1][0], m2[1][0]), key=lambda f: f[0]))
+
+
+def same_factors(a: Moment, b: Moment) -> bool:
+    return len(a[1]) == 2 and [k for k, _ in a[1]] == [k for k, _ in b[1]]
+
+
+def simple_mean_call(ctx: Context, expr: ast.expr) -> tuple[str, ast.expr] | None:
+    """(module, data) when `expr` is a plain mean call with no axis or other options."""
+    call = ctx.origin(expr)
+    found = p.reduction(ctx, call)
+    if found is None or found[0] != "mean" or not isinstance(call, ast.Call) or call.keywords:
+        return None
+    if isinstance(call.func, ast.Attribute) and call.func.value is found[1]:
+        return "numpy", found[1]  # method form x.mean(): numpy's var takes arrays and array-likes
+    if len(call.args) != 1:
+        return None
+    module = "statistics" if (ctx.qualname(call.func) or "").startswith("statistics.") else p.callee_module(ctx, call)
+    return (module, found[1]) if module in ("numpy", "statistics") else None
+
+
+def two_pass_text(ctx: Context, left: ast.expr, m: Moment) -> tuple[str | None, tuple[str, ...]]:
+    found = simple_mean_call(ctx, left)
+    if found is None:
+        return None, ()
+    module, _ = found
+    (k1, x), (k2, y) = m[1]
+    if k1 == k2:
+        func, imports = p.spelled_qualified(ctx, "statistics.pvariance" if module == "statistics" else "numpy.var")
+        return f"{func}({p.text(ctx, x)})", imports
+    if module != "numpy":
+        return None, ()
+    mean, imports = p.spelled(ctx, "numpy", "mean")
+    xs, ys = p.text(ctx, x), p.text(ctx, y)
+    return f"{mean}(({xs} - {mean}({xs})) * ({ys} - {mean}({ys})))", imports
+
+
+def matched(ctx: Context, node: ast.BinOp) -> tuple[str, Moment] | None:
+    """('mean' | 'sum', second moment) when `node` is a one-pass variance or covariance."""
+    left, right = node.left, node.right
+    m2 = moment(ctx, left)
+    if m2 is not None and m2[0] == "mean":
+        prod = moment_product(ctx, right)
+        if prod is not None and prod[0] == "mean" and same_factors(m2, prod):
+            return "mean", m2
+    if m2 is not None and m2[0] == "sum" and isinstance(right, ast.BinOp) and isinstance(right.op, ast.Div):
+        prod = moment_product(ctx, right.left)
+        if prod is not None and same_factors(m2, prod):
+            return "sum", m2
+    if isinstance(left, ast.BinOp) and isinstance(left.op, ast.Mult):
+        for part in (left.left, left.right):
+            scaled = moment(ctx, part)
+            prod = moment_product(ctx, right)
+            if scaled is not None and scaled[0] == "sum" and prod is not None and same_factors(scaled, prod):
+                return "sum", scaled
+    return None
+
+
+class NaiveVariance(Rule):
+    id = "naive-variance"
+    title = "one-pass variance by mean of squares minus squared mean"
+    severity = Severity.WARNING
+    summary = "E[x^2] - E[x]^2 (or sum_sq - sum^2/n) cancels when the mean is large against the spread"
+    node_types = (ast.BinOp,)
+    method = (
+        "Two-pass variance and Welford's update: B. P. Welford, Technometrics 4(3), 1962; T. F. Chan, G. H. Golub "
+        "and R. J. LeVeque, Algorithms for computing the sample variance, The American Statistician 37(3), 1983 "
+        "(from memory)"
+    )
+    rewrite_template = "np.var({x})"
+    examples = (
+        Example("import numpy as np\ndef spread(x):\n    return np.mean(x**2) - np.mean(x)**2\n", True, "np.var(x)",
+                {"x": 1e4}),
+        Example("def spread(x):\n    return (x*x).mean() - x.mean()**2\n", True, "numpy.var(x)"),
+        Example("import statistics as st\ndef spread(v):\n    m = st.mean(v)\n    return st.mean([a * a for a in v]) - m * m\n",
+                True, "st.pvariance(v)"),
+        Example("def var(xs):\n    n = len(xs)\n    s = sum(xs)\n    sq = sum(v * v for v in xs)\n"
+                "    return (sq - s**2 / n) / (n - 1)\n", True),
+        Example("def var(xs):\n    s = 0.0\n    s2 = 0.0\n    for v in xs:\n        s += v\n        s2 += v * v\n"
+                "    n = len(xs)\n    return s2 / n - (s / n) ** 2\n", True),
+        Example("import numpy as np\ndef cov(x, y):\n    return np.mean(x * y) - np.mean(x) * np.mean(y)\n", True,
+                "np.mean((x - np.mean(x)) * (y - np.mean(y)))"),
+        Example("import numpy as np\ndef spread(x):\n    m = np.mean(x)\n    return np.mean((x - m) ** 2)\n", False,
+                note="two-pass"),
+        Example("import numpy as np\ndef f(x, y):\n    return np.mean(x**2) - np.mean(y)**2\n", False,
+                note="different data"),
+    )
+
+    def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        assert isinstance(node, ast.BinOp)
+        if not isinstance(node.op, ast.Sub):
+            return
+        found = matched(ctx, node)
+        if found is None:
+            return
+        form, m2 = found
+        covariance = m2[1][0][0] != m2[1][1][0]
+        rewrite, imports = two_pass_text(ctx, node.left, m2) if form == "mean" else (None, ())
+        fix = rewrite or "a two-pass form (subtract the mean first) or Welford's running update"
+        what = "E[xy] - E[x]E[y]" if covariance else "the mean of squares minus the squared mean"
+        yield Hit(node, f"{what} cancels, losing about 2*log10(|mean|/spread) digits (8 at mean/spread = 1e4) "
+                  f"and possibly going negative; use {fix}", rewrite=rewrite, imports=imports)

@@ -1,0 +1,169 @@
+"""Advancing a clock by repeated addition, `t += dt` in a loop, drifts away from `t0 + k*dt`.
+
+A step like 0.1 is not a binary fraction, and each addition rounds again, so after k steps
+t carries an error that grows like k * eps * |t|: adding 0.1 ten times gives
+0.9999999999999999, a loop `while t < 1.0` then runs one step too many, and long runs put
+sample times visibly off the grid. Computing t from the step count, t = t0 + k * dt, makes
+one rounding per value, independent of k. Integer steps, steps that are exact binary
+fractions (0.5, 0.25) and data-dependent increments are not flagged.
+"""
+from __future__ import annotations
+
+import ast
+import re
+from collections.abc import Iterator
+
+from auditor import Context, Example, Hit, Rule, Severity
+from auditor import patterns as p
+
+_NESTED = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)
+#: names that say "this is a step or a clock" when no value is visible
+_STEP_NAME = re.compile(r"^(d[a-z]{1,5}|h|step|.*_step|step_.*|tstep|delta|delta_.*|increment|spacing)$")
+_CLOCK_NAME = re.compile(r"^(t|time|.*_time|time_.*|elapsed|clock|now|t_.*|.*_t|epoch_t)$")
+
+
+def body_nodes(loop: ast.For | ast.While) -> Iterator[ast.AST]:
+    stack: list[ast.AST] = [*loop.body, *loop.orelse]
+    while stack:
+        node = stack.pop()
+        yield node
+        stack.extend(c for c in ast.iter_child_nodes(node) if not isinstance(c, _NESTED))
+
+
+def changing_names(loop: ast.For | ast.While) -> set[str]:
+    """Names that change from pass to pass (loop targets and anything assigned in the body)."""
+    names = {n.id for n in ast.walk(loop.target) if isinstance(n, ast.Name)} if isinstance(loop, ast.For) else set()
+    for node in body_nodes(loop):
+        if isinstance(node, (ast.Assign, ast.AugAssign, ast.AnnAssign, ast.For, ast.NamedExpr)):
+            targets = node.targets if isinstance(node, ast.Assign) else [node.target]
+            names |= {n.id for t in targets for n in ast.walk(t) if isinstance(n, ast.Name)}
+    return names
+
+
+def step_update(node: ast.AST) -> tuple[ast.expr, ast.expr, bool] | None:
+    """(target, step, subtract) for `t += dt`, `t -= dt`, `t = t + dt`, `t = dt + t`."""
+    if isinstance(node, ast.AugAssign) and isinstance(node.op, (ast.Add, ast.Sub)):
+        return node.target, node.value, isinstance(node.op, ast.Sub)
+    if isinstance(node, ast.Assign) and len(node.targets) == 1 and isinstance(node.value, ast.BinOp):
+        target, v = node.targets[0], node.value
+        if isinstance(v.op, (ast.Add, ast.Sub)) and ast.unparse(v.left) == ast.unparse(target):
+            return target, v.right, isinstance(v.op, ast.Sub)
+        if isinstance(v.op, ast.Add) and ast.unparse(v.right) == ast.unparse(target):
+            return target, v.left, False
+    return None
+
+
+def drifting_step(ctx: Context, target: ast.expr, step: ast.expr) -> bool:
+    """True when the step is visibly a float that is not an exact binary fraction."""
+    value = p.constant_value(ctx, step)
+    if value is not None:
+        return not float(value * 2**20).is_integer()
+    if p.is_integer_valued(ctx, step):
+        return False
+    if any(isinstance(n, ast.BinOp) and isinstance(n.op, ast.Div) for n in ast.walk(ctx.origin(step))):
+        return True
+    name = step.attr if isinstance(step, ast.Attribute) else step.id if isinstance(step, ast.Name) else ""
+    clock = target.attr if isinstance(target, ast.Attribute) else target.id if isinstance(target, ast.Name) else ""
+    return bool(_STEP_NAME.match(name)) and bool(_CLOCK_NAME.match(clock) or name.startswith("d"))
+
+
+def read_elsewhere(ctx: Context, stmt: ast.stmt, target: ast.expr) -> bool:
+    """The clock is used (in the loop or after), not only advanced."""
+    key = ast.unparse(target)
+    for n in ast.walk(ctx.scope(stmt)):
+        if isinstance(n, (ast.Name, ast.Attribute)) and isinstance(n.ctx, ast.Load) and ast.unparse(n) == key:
+            if not any(n is m for m in ast.walk(stmt)):
+                return True
+    return False
+
+
+def step_count(loop: ast.For) -> str | None:
+    """How many steps have been taken after this pass: `i + 1` for range(n), `i` for range(1, ...)."""
+    it, target = loop.iter, loop.target
+    if not isinstance(it, ast.Call) or not isinstance(it.func, ast.Name) or any(k.arg != "start" for k in it.keywords):
+        return None
+    if it.func.id == "range" and isinstance(target, ast.Name) and 1 <= len(it.args) <= 2:
+        start = p.literal_number(it.args[0]) if len(it.args) == 2 else 0
+        index = target.id
+    elif it.func.id == "enumerate" and isinstance(target, ast.Tuple) and isinstance(target.elts[0], ast.Name):
+        given = it.args[1] if len(it.args) > 1 else next((k.value for k in it.keywords if k.arg == "start"), None)
+        start = p.literal_number(given) if given is not None else 0
+        index = target.elts[0].id
+    else:
+        return None
+    if start == 0:
+        return f"({index} + 1)"
+    if start == 1:
+        return index
+    return None
+
+
+def counted_text(ctx: Context, stmt: ast.stmt, loop: ast.For | ast.While, target: ast.expr, step: ast.expr,
+                 subtract: bool) -> str | None:
+    """`t = t0 + (i + 1) * dt` when the loop index counts the steps and t starts from a fixed t0."""
+    if not isinstance(loop, ast.For) or not isinstance(target, ast.Name) or stmt not in loop.body:
+        return None
+    count = step_count(loop)
+    if count is None or any(isinstance(n, (ast.Continue, ast.Break)) for n in body_nodes(loop)):
+        return None
+    index = count.strip("()").split(" ")[0]
+    if index in changing_names(loop) - {n.id for n in ast.walk(loop.target) if isinstance(n, ast.Name)}:
+        return None
+    flow = ctx.flow(ctx.scope(stmt))
+    inside = [b for b in flow.of(target.id) if loop.lineno <= b.line <= (loop.end_lineno or loop.lineno)]
+    before = [b for b in flow.of(target.id) if (b.line, b.column) < (loop.lineno, loop.col_offset)]
+    if len(inside) != 1 or not before or before[-1].kind != "assign" or before[-1].value is None:
+        return None
+    start = before[-1].value
+    if ctx.enclosing_loops(before[-1].stmt) != ctx.enclosing_loops(loop) or p.names_in(start) & changing_names(loop):
+        return None
+    sign = "-" if subtract else "+"
+    scaled = f"{count} * {p.operand_text(ctx, step)}" if count != "1" else p.text(ctx, step)
+    if p.is_number(start, 0) and not subtract:
+        return f"{target.id} = {scaled}"
+    return f"{target.id} = {p.operand_text(ctx, start)} {sign} {scaled}"
+
+
+class StepAccumulation(Rule):
+    id = "step-accumulation"
+    title = "time or position advanced by repeated addition"
+    severity = Severity.NOTE
+    summary = "t += dt in a loop drifts from t0 + k*dt; compute t from the step count"
+    node_types = (ast.AugAssign, ast.Assign)
+    method = (
+        "Compute grid points from the index, t_k = t0 + k*h, instead of by recurrence (common practice; error "
+        "growth of recursive summation in N. J. Higham, Accuracy and Stability of Numerical Algorithms, "
+        "2nd ed., SIAM 2002, section 4.2, from memory)"
+    )
+    rewrite_template = "{t} = {t0} + (i + 1) * {dt}"
+    examples = (
+        Example("import math\ndef trace(n, dt):\n    t = 0.0\n    out = []\n    for i in range(n):\n        t += dt\n"
+                "        out.append(math.sin(t))\n    return out\n", True, "t = (i + 1) * dt"),
+        Example("def ticks(t0, n):\n    t = t0\n    for k in range(1, n + 1):\n        t = t + 0.1\n        print(t)\n",
+                True, "t = t0 + k * 0.1"),
+        Example("def run(sim, t_end, dt):\n    t = 0.0\n    while t < t_end:\n        sim.advance(dt)\n"
+                "        t += dt\n    return sim\n", True),
+        Example("def f(xs):\n    i = 0\n    for x in xs:\n        i += 1\n    return i\n", False),
+        Example("def f(n, dt):\n    out = []\n    for i in range(n):\n        out.append(i * dt)\n    return out\n", False),
+        Example("def f(n):\n    t = 0.0\n    for i in range(n):\n        t += 0.5\n        print(t)\n", False,
+                note="0.5 is exact in binary"),
+    )
+
+    def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        found = step_update(node)
+        loops = ctx.enclosing_loops(node)
+        if found is None or not loops or not isinstance(node, ast.stmt):
+            return
+        target, step, subtract = found
+        if not isinstance(target, (ast.Name, ast.Attribute)) or p.names_in(step) & changing_names(loops[0]):
+            return
+        if not drifting_step(ctx, target, step) or not read_elsewhere(ctx, node, target):
+            return
+        loop = loops[0]
+        rewrite = counted_text(ctx, node, loop, target, step, subtract)
+        guard = isinstance(loop, ast.While) and ast.unparse(target) in {ast.unparse(n) for n in ast.walk(loop.test)}
+        fix = rewrite or "t = t0 + k * dt with a step counter k"
+        extra = "; `while` tests on the drifting value can take one step too many or too few" if guard else ""
+        yield Hit(node, f"each addition rounds again, so after k steps the value is off by up to k*eps*|t| "
+                  f"(0.1 added ten times gives 0.9999999999999999){extra}; use {fix}",
+                  severity=Severity.WARNING if guard else None, rewrite=rewrite)

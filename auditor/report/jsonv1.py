@@ -57,7 +57,7 @@ def rewrite_dict(r: Rewrite | None) -> dict[str, Any] | None:
 
 
 def finding_dict(f: Finding) -> dict[str, Any]:
-    return {
+    out = {
         "rule": f.rule,
         "severity": f.severity.value,
         "path": f.path,
@@ -70,6 +70,9 @@ def finding_dict(f: Finding) -> dict[str, Any]:
         "measurement": measurement_dict(f.measurement),
         "rewrite": rewrite_dict(f.rewrite),
     }
+    if f.cell is not None:  # notebooks only: 1-based cell number; line and column are within the cell
+        out["cell"] = f.cell
+    return out
 
 
 def report_dict(report: Report) -> dict[str, Any]:

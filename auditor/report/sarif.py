@@ -46,6 +46,8 @@ def _result(f: Finding, index: dict[str, int], with_state: bool) -> dict[str, An
     }
     if f.rule in index:
         result["ruleIndex"] = index[f.rule]
+    if f.cell is not None:  # notebooks: the region's lines count within this cell (1-based, all cells)
+        result["properties"]["cell"] = f.cell
     if with_state and f.baseline_state:
         result["baselineState"] = f.baseline_state
     if f.rewrite is not None and f.rewrite.verified:

@@ -45,9 +45,15 @@ def _frame(f: Finding, lines: Sequence[str] | None) -> list[str]:
     return out
 
 
+def where(f: Finding) -> str:
+    """path:line:col, with the cell for notebooks: `lab.ipynb[cell 3]:2:5`."""
+    cell = f"[cell {f.cell}]" if f.cell is not None else ""
+    return f"{f.path}{cell}:{f.span.line}:{f.span.column}"
+
+
 def _finding_lines(f: Finding, sources: dict[str, list[str]]) -> list[str]:
-    head = f"{f.path}:{f.span.line}:{f.span.column}: {f.severity.value} [{f.rule}] {f.message}"
-    out = [head, *_frame(f, sources.get(f.path))]
+    head = f"{where(f)}: {f.severity.value} [{f.rule}] {f.message}"
+    out = [head, *_frame(f, sources.get(f.path) if f.cell is None else None)]  # a notebook's lines are JSON
     if f.measurement is not None:
         out.append(f"    measured: {_measurement_line(f.measurement)}")
     if f.rewrite is not None:
@@ -97,7 +103,7 @@ def render_text(report: Report, sources: dict[str, list[str]] | None = None, col
     styles = {"error": "bold red", "warning": "yellow", "note": "cyan"}
     for f in report.findings:
         lines = _finding_lines(f, sources or {})
-        head = Text(f"{f.path}:{f.span.line}:{f.span.column}: ", style="bold")
+        head = Text(f"{where(f)}: ", style="bold")
         head.append(f"{f.severity.value} ", style=styles[f.severity.value])
         head.append(f"[{f.rule}] ", style="magenta")
         head.append(f.message)

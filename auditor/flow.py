@@ -4,6 +4,8 @@ from __future__ import annotations
 import ast
 from dataclasses import dataclass, field
 
+from auditor.nodes import children
+
 Scope = ast.Module | ast.FunctionDef | ast.AsyncFunctionDef | ast.Lambda
 
 #: Kinds of binding a name can receive.
@@ -95,6 +97,5 @@ def analyse_scope(scope: ast.AST) -> ScopeFlow:
         if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)):
             flow.add(Binding(node.name, OTHER, node.lineno, node.col_offset, None, node))
             continue
-        children = [c for c in ast.iter_child_nodes(node) if not isinstance(c, _NESTED)]
-        stack.extend(reversed(children))
+        stack.extend(reversed([c for c in children(node) if not isinstance(c, _NESTED)]))
     return flow

@@ -2,9 +2,10 @@
 from __future__ import annotations
 
 import ast
-from collections.abc import Iterator
+import re
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass, field
-from typing import ClassVar
+from typing import Any, ClassVar, TypeVar
 
 from auditor.flow import Binding, ScopeFlow, analyse_scope
 from auditor.model import Severity
@@ -12,6 +13,8 @@ from auditor.names import family_of
 from auditor.resolve import ImportTable, collect_imports
 
 PARENT = "_auditor_parent"
+T = TypeVar("T")
+_NEWLINE = re.compile(r"\r\n|\r|\n")  # the line ends the tokenizer counts (not form feeds)
 
 
 @dataclass(frozen=True, slots=True)
@@ -64,6 +67,39 @@ class Context:
         self.source = source
         self._imports: ImportTable | None = None
         self._flows: dict[int, ScopeFlow] = {}
+        self._memo: dict[tuple[str, int], Any] = {}
+        self._line_starts: list[int] | None = None
+        self._ascii = True
+
+    def cached(self, kind: str, node: ast.AST, compute: Callable[[], T]) -> T:
+        """Compute a fact about `node` once per file and share it with every rule.
+
+        Rules and shared helpers use this for anything costlier than a glance at one node
+        (e.g. the updates inside a loop), so that no rule re-walks what another already did.
+        """
+        key = (kind, id(node))
+        if key not in self._memo:
+            self._memo[key] = compute()
+        return self._memo[key]  # type: ignore[no-any-return]
+
+    def segment(self, node: ast.AST) -> str:
+        """Source text of `node` (like ast.get_source_segment, without re-splitting the file)."""
+        if self._line_starts is None:
+            self._ascii = self.source.isascii()
+            starts = [0]
+            for match in _NEWLINE.finditer(self.source):
+                starts.append(match.end())
+            self._line_starts = starts
+        try:
+            first, last = node.lineno, node.end_lineno  # type: ignore[attr-defined]
+            col, end_col = node.col_offset, node.end_col_offset  # type: ignore[attr-defined]
+        except AttributeError:
+            return ""
+        if last is None or end_col is None:
+            return ""
+        if self._ascii:
+            return self.source[self._line_starts[first - 1] + col : self._line_starts[last - 1] + end_col]
+        return ast.get_source_segment(self.source, node) or ""
 
     # -- structure -------------------------------------------------------
     @staticmethod

@@ -13,6 +13,7 @@ from auditor.catalog import load_catalog
 from auditor.config import Config
 from auditor.directives import parse_directives
 from auditor.model import FileError, Finding, Report, Rewrite, Span, Stats
+from auditor.nodes import CHILD_FIELDS
 from auditor.rule import PARENT, Context, Hit, Rule
 from auditor.cache import ResultCache, default_folder, entry_key
 from auditor.sources import SourceRef, SourceText, decode, discover, read_bytes
@@ -40,21 +41,21 @@ def walk(tree: ast.AST, wanted: dict[type, list[Rule]]) -> list[tuple[ast.AST, l
     """One pass over the tree: set every node's parent and collect the nodes some rule wants."""
     todo: list[tuple[ast.AST, list[Rule]]] = []
     stack = [tree]
-    pop, push, AST = stack.pop, stack.append, ast.AST
-    get = wanted.get
+    pop, push, get, fields = stack.pop, stack.append, wanted.get, CHILD_FIELDS
     while stack:
         node = pop()
-        rules = get(type(node))
+        kind = type(node)
+        rules = get(kind)
         if rules:
             todo.append((node, rules))
-        for name in node._fields:
+        for name in fields.get(kind, ()):
             value = getattr(node, name, None)
             if type(value) is list:
                 for item in value:
-                    if isinstance(item, AST):
+                    if item is not None and type(item) is not str:
                         setattr(item, PARENT, node)
                         push(item)
-            elif isinstance(value, AST):
+            elif value is not None:
                 setattr(value, PARENT, node)
                 push(value)
     return todo
@@ -101,7 +102,7 @@ def fingerprint(rule: str, path: str, function: str | None, snippet: str, occurr
 
 
 def _finding(ctx: Context, rule: Rule, hit: Hit, lines: Sequence[str]) -> Finding:
-    snippet = ast.get_source_segment(ctx.source, hit.node) or ""
+    snippet = ctx.segment(hit.node)
     rewrite = None
     if hit.rewrite is not None:
         rewrite = Rewrite(text=hit.rewrite, verified=False, imports=hit.imports, note="not yet measured")

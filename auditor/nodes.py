@@ -1,0 +1,36 @@
+"""Fast child iteration over `ast` nodes (which fields can hold nodes, per node class)."""
+from __future__ import annotations
+
+import ast
+from collections.abc import Iterator
+
+#: Fields that never hold child nodes worth visiting: names, flags, and the shared singleton
+#: context and operator nodes (setting a parent on a shared singleton would be wrong).
+_LEAF_FIELDS = frozenset(
+    {"ctx", "op", "id", "attr", "arg", "name", "names", "level", "module", "kind", "conversion",
+     "is_async", "type_comment", "simple", "type_ignores"}
+)
+
+
+def _child_fields() -> dict[type, tuple[str, ...]]:
+    table: dict[type, tuple[str, ...]] = {}
+    for name in dir(ast):
+        cls = getattr(ast, name)
+        if isinstance(cls, type) and issubclass(cls, ast.AST):
+            table[cls] = () if cls is ast.Constant else tuple(f for f in cls._fields if f not in _LEAF_FIELDS)
+    return table
+
+
+CHILD_FIELDS = _child_fields()
+
+
+def children(node: ast.AST) -> Iterator[ast.AST]:
+    """Child nodes worth visiting (no contexts, operators or names), like ast.iter_child_nodes."""
+    for name in CHILD_FIELDS.get(type(node), ()):
+        value = getattr(node, name, None)
+        if type(value) is list:
+            for item in value:
+                if item is not None and type(item) is not str:
+                    yield item
+        elif value is not None:
+            yield value

@@ -1,0 +1,86 @@
+"""Static-pass speed: `auditor scan --jobs 1` against bare `ast.parse` over the same files.
+
+Scans the .py files of the installed numpy and scipy (or the folders given) and prints, in one
+run: the time of reading + `ast.parse` for every file, the time of the scan (a child process,
+so its peak memory is measured apart), their ratio, peak RSS, and findings per 1,000 lines
+for each rule.
+
+    python bench/static_speed.py [FOLDER ...]
+"""
+from __future__ import annotations
+
+import ast
+import importlib.util
+import json
+import os
+import resource
+import subprocess
+import sys
+import tempfile
+import time
+from collections import Counter
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+
+
+def package_dir(name: str) -> Path:
+    spec = importlib.util.find_spec(name)
+    if spec is None or not spec.submodule_search_locations:
+        raise SystemExit(f"{name} is not installed")
+    return Path(next(iter(spec.submodule_search_locations)))
+
+
+def bare_parse(files: list[Path]) -> tuple[float, int]:
+    """Seconds to read and parse every file, and the number of lines."""
+    lines = 0
+    start = time.perf_counter()
+    for path in files:
+        data = path.read_bytes()
+        lines += data.count(b"\n")
+        try:
+            ast.parse(data, filename=str(path))
+        except (SyntaxError, ValueError, RecursionError):
+            pass
+    return time.perf_counter() - start, lines
+
+
+def auditor_scan(folders: list[Path]) -> tuple[float, dict, int]:
+    """Seconds, the JSON report, and the child's peak RSS in KiB."""
+    with tempfile.TemporaryDirectory() as tmp:
+        out = Path(tmp) / "report.json"
+        cmd = [sys.executable, "-m", "auditor", "scan", "--jobs", "1", "--format", "json",
+               "--fail-on", "never", "--output", str(out), *map(str, folders)]
+        env = {**os.environ, "PYTHONPATH": str(ROOT)}
+        start = time.perf_counter()
+        done = subprocess.run(cmd, env=env, cwd=tmp, capture_output=True, text=True)
+        seconds = time.perf_counter() - start
+        if done.returncode not in (0, 1):
+            raise SystemExit(f"scan failed ({done.returncode}): {done.stderr}")
+        report = json.loads(out.read_text())
+    peak_kib = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
+    return seconds, report, peak_kib
+
+
+def main(argv: list[str]) -> None:
+    folders = [Path(a) for a in argv] or [package_dir("numpy"), package_dir("scipy")]
+    files = sorted(p for folder in folders for p in folder.rglob("*.py"))
+    # warm the page cache so neither side pays for the first read
+    for p in files:
+        p.read_bytes()
+    parse_s, lines = bare_parse(files)
+    scan_s, report, peak_kib = auditor_scan(folders)
+    print(f"files: {len(files)}   lines: {lines}")
+    print(f"bare ast.parse:          {parse_s:8.2f} s  ({lines / parse_s:,.0f} lines/s)")
+    print(f"auditor scan --jobs 1:   {scan_s:8.2f} s  ({lines / scan_s:,.0f} lines/s)")
+    print(f"ratio scan / parse:      {scan_s / parse_s:8.2f}   (target <= 2.5)")
+    print(f"peak RSS of the scan:    {peak_kib / 1024:8.0f} MiB (target < 1024)")
+    print(f"errors: {len(report['errors'])}   findings: {len(report['findings'])}")
+    per_rule = Counter(f["rule"] for f in report["findings"])
+    print("\nfindings per 1,000 lines by rule:")
+    for rule, count in sorted(per_rule.items(), key=lambda kv: -kv[1]):
+        print(f"  {rule:<30} {count:>6}  {1000 * count / lines:7.3f}")
+
+
+if __name__ == "__main__":
+    main(sys.argv[1:])

@@ -265,8 +265,8 @@ def gram_base(ctx: Context, node: ast.expr) -> ast.expr | None:
     factors = product_factors(ctx, ctx.origin(node))
     if factors is None or len(factors) != 2:
         return None
-    base = transposed(ctx, factors[0])
-    if base is not None and same_expr(base, factors[1]):
+    base = transposed(ctx, ctx.origin(factors[0]))
+    if base is not None and (same_expr(base, factors[1]) or same_expr(ctx.origin(base), ctx.origin(factors[1]))):
         return base
     return None
 

@@ -46,9 +46,11 @@ def small_threshold(ctx: Context, expr: ast.expr) -> float | None:
 def in_test_position(ctx: Context, node: ast.AST) -> bool:
     """True when `node`'s truth value decides a branch: `if det(M):`, `while det(M)`, `not det(M)`."""
     parent = ctx.parent(node)
+    negated = False
     while isinstance(parent, ast.BoolOp) or isinstance(parent, ast.UnaryOp) and isinstance(parent.op, ast.Not):
+        negated = negated or isinstance(parent, ast.UnaryOp)
         node, parent = parent, ctx.parent(parent)
-    if isinstance(parent, (ast.If, ast.While, ast.IfExp, ast.Assert)) and parent.test is node:
+    if negated or isinstance(parent, (ast.If, ast.While, ast.IfExp, ast.Assert)) and parent.test is node:
         return True
     return isinstance(parent, ast.Call) and isinstance(parent.func, ast.Name) and parent.func.id == "bool"
 

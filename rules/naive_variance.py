@@ -31,12 +31,26 @@ def data_key(ctx: Context, expr: ast.expr) -> tuple[str, ast.expr]:
     return ast.dump(expr), expr
 
 
+def comprehension_source(comp: ast.comprehension, e: ast.expr) -> ast.expr | None:
+    """What a comprehension variable ranges over: `v in xs` -> xs; `x, y in zip(a, b)` -> a or b."""
+    if not isinstance(e, ast.Name):
+        return None
+    if isinstance(comp.target, ast.Name):
+        return comp.iter if e.id == comp.target.id else None
+    it = comp.iter
+    if isinstance(comp.target, ast.Tuple) and isinstance(it, ast.Call) and isinstance(it.func, ast.Name) \
+            and it.func.id == "zip" and len(it.args) == len(comp.target.elts):
+        for var, source in zip(comp.target.elts, it.args):
+            if isinstance(var, ast.Name) and var.id == e.id:
+                return source
+    return None
+
+
 def factors_of(ctx: Context, term: ast.expr, comp: ast.comprehension | None = None) -> tuple[tuple[str, ast.expr], ...]:
     """x**2 -> (x, x); x * y -> (x, y); x -> (x,). Comprehension targets stand for their iterable."""
     def key(e: ast.expr) -> tuple[str, ast.expr]:
-        if comp is not None and isinstance(comp.target, ast.Name) and isinstance(e, ast.Name) and e.id == comp.target.id:
-            return ast.dump(comp.iter), comp.iter
-        return data_key(ctx, e)
+        source = comprehension_source(comp, e) if comp is not None else None
+        return (ast.dump(source), source) if source is not None else data_key(ctx, e)
 
     base = p.is_square(term)
     if base is None and isinstance(term, ast.Call) and ctx.family(term) == "square" and p.single_arg(term) is not None:

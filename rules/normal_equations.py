@@ -35,10 +35,19 @@ def normal_rhs(ctx: Context, factors: list[ast.expr], a: ast.expr) -> ast.expr |
             return None
         factors = inner
     if len(factors) == 2:
-        base = p.transposed(ctx, factors[0])
+        base = p.transposed(ctx, ctx.origin(factors[0]))
         if base is not None and p.same_expr(base, a):
             return factors[1]
     return None
+
+
+def inside_product(ctx: Context, node: ast.AST) -> bool:
+    """True when `node` is a factor of a larger product (`(inv(G) @ A.T) @ b`, `inv(G).dot(A.T).dot(b)`)."""
+    parent = ctx.parent(node)
+    if isinstance(parent, ast.Attribute) and parent.attr == "dot":
+        parent = ctx.parent(parent)
+    pair = p.product_pair(ctx, parent) if parent is not None else None
+    return pair is not None and any(f is node for f in pair)
 
 
 def lstsq_text(ctx: Context, module: str | None, a: ast.expr, b: ast.expr) -> tuple[str | None, tuple[str, ...]]:
@@ -83,8 +92,7 @@ class NormalEquations(Rule):
                 b = normal_rhs(ctx, [node.args[1]], a)
                 yield self._hit(ctx, node, p.callee_module(ctx, node), a, b)
             return
-        if p.product_pair(ctx, node) is None or p.product_pair(ctx, ctx.parent(node) or node) is not None \
-                and ctx.parent(node) is not None:
+        if p.product_pair(ctx, node) is None or inside_product(ctx, node):
             return  # only the outermost product of a chain
         factors = p.product_factors(ctx, node) or []
         found = gram_inverse(ctx, factors[0]) if factors else None

@@ -110,18 +110,18 @@ def _parse(source_text: str, path: str) -> tuple[ast.Module, Context]:
 
 
 def _measure_text(finding: Finding, source_text: str, span: Span, project: Project,
-                  points: Sequence[dict[str, Any]] | None = None) -> _Measured:
+                  points: Sequence[dict[str, Any]] | None = None, inside: bool = False) -> _Measured:
     """Locate the unit at `span` in `source_text`, plan inputs (unless given) and measure."""
     try:
         tree, ctx = _parse(source_text, finding.path)
     except (SyntaxError, ValueError, RecursionError) as exc:
         return _Measured(not_measured(f"the source does not parse: {exc}"), (), None)
-    node = locate(tree, span, source_text.splitlines())
+    node = locate(tree, span, source_text.splitlines(), inside)
     if node is None:
         return _Measured(not_measured("the flagged code could not be found again in the source"), (), None)
     module = source_module(tree)
     try:
-        unit = build_unit(ctx, node, module)
+        unit = build_unit(ctx, node, module, finding.rule)
         shadow = compile_shadow(unit, module)
         plan = _plan(unit, finding, source_text, tree, project) if points is None else InputPlan(list(points), "")
         if not plan.points:
@@ -175,7 +175,8 @@ def measure_finding(finding: Finding, source_text: str, config: Config, replacem
     new_text = splice_text(source_text, finding.span, replacement, imports)
     if new_text is None:
         return FindingMeasurement(before.measurement, before.samples, note="the span does not fit the source")
-    after = _measure_text(finding, new_text, _replaced_span(finding.span, replacement), project, before.plan.points)
+    same = [s.inputs for s in before.samples]
+    after = _measure_text(finding, new_text, _replaced_span(finding.span, replacement), project, same, inside=True)
     ok, note = verify_rewrite(before.samples, after.samples)
     if after.measurement.verdict is Verdict.NOT_MEASURED:
         ok, note = False, "rewrite not measured: " + after.measurement.reason

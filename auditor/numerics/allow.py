@@ -172,6 +172,12 @@ def _ref_logsumexp(a: Any, *_: Any, **__: Any) -> Any:
     return mpmath.log(mpmath.fsum(mpmath.exp(v) for v in values))
 
 
+def _ref_var(a: Any, axis: Any = None, ddof: int = 0, **_: Any) -> Any:
+    values = list(np.ravel(np.asarray(a, dtype=object)))
+    mean = mpmath.fsum(values) / len(values)
+    return mpmath.fsum((v - mean) ** 2 for v in values) / (len(values) - ddof)
+
+
 def _ref_sign(x: Any) -> Any:
     return mpmath.sign(x)
 
@@ -261,7 +267,8 @@ def _core() -> dict[str, Pair]:
         "numpy.ceil": (np.ceil, _elementwise(mpmath.ceil)),
         "numpy.logaddexp": (np.logaddexp, _elementwise(lambda a, b: mpmath.log(mpmath.exp(a) + mpmath.exp(b)), 2)),
         "numpy.sum": (np.sum, _ref_sum), "numpy.prod": (np.prod, np.prod), "numpy.cumsum": (np.cumsum, np.cumsum),
-        "numpy.mean": (np.mean, np.mean), "numpy.dot": (np.dot, np.dot), "numpy.max": (np.max, np.max),
+        "numpy.mean": (np.mean, np.mean), "numpy.var": (np.var, _ref_var),
+        "numpy.std": (np.std, lambda *a, **k: mpmath.sqrt(_ref_var(*a, **k))), "numpy.dot": (np.dot, np.dot), "numpy.max": (np.max, np.max),
         "numpy.min": (np.min, np.min), "numpy.amax": (np.amax, np.amax), "numpy.amin": (np.amin, np.amin),
         "numpy.maximum": (np.maximum, np.maximum), "numpy.minimum": (np.minimum, np.minimum),
         "numpy.array": (_sized(np.array), _ref_array), "numpy.asarray": (_sized(np.asarray), _ref_array),

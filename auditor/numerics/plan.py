@@ -7,6 +7,8 @@ from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from typing import Any
 
+import numpy as np
+
 from auditor.numerics.inputs import Range, parse_domain, sample_points
 
 _INT_FUNCS = {"range", "factorial", "comb", "perm", "isqrt"}
@@ -130,11 +132,59 @@ def plan_inputs(
     assumed = [n for n in todo if n not in integers]
     if assumed:
         reasons.append(f"{', '.join(assumed)} assumed (no domain given): |value| log-uniform in 1e-12..1e12, both signs, plus points near 0, 1 and large")
-    count = 1 if not assumed and all(r.lo == r.hi for r in ranges.values()) and not exact else samples
+    single = not assumed and all(r.lo == r.hi for r in ranges.values()) and not exact
+    count = 1 if single and not array_names([function, expr], names) else samples
     points = sample_points(ranges, assumed, fixed, count, seed)
     for n, r in ranges.items():
         if r.integer:
             for p in points:
                 p[n] = int(p[n])
     points = [{**points[i % len(points)], **e} for i, e in enumerate(exact)] + points[: max(0, count - len(exact))]
+    arrays = array_names([function, expr], names)
+    if arrays:
+        points = with_arrays(points, arrays, ranges, seed)
+        reasons.append(f"{', '.join(sorted(arrays))}: arrays of {ARRAY_SIZE} values each")
     return InputPlan(points, "inputs: " + "; ".join(reasons) if reasons else "inputs: none (a constant unit)")
+
+
+#: Elements per array input (small: the reference evaluates arrays element by element).
+ARRAY_SIZE = 16
+_REDUCERS = {"sum", "fsum", "mean", "var", "std", "max", "min", "len", "dot", "cumsum", "prod", "asarray",
+             "array", "logsumexp", "sort", "sorted", "median", "average", "amax", "amin", "nansum", "nanmean"}
+
+
+def array_names(roots: Sequence[ast.AST | None], names: Sequence[str]) -> set[str]:
+    """Inputs used as arrays: subscripted, iterated, reduced (np.mean(v), sum(v), len(v)) or
+    given a reduction method (v.sum())."""
+    wanted, out = set(names), set()
+    for root in (r for r in roots if r is not None):
+        for node in ast.walk(root):
+            if isinstance(node, ast.Subscript) and isinstance(node.value, ast.Name):
+                out.add(node.value.id)
+            elif isinstance(node, (ast.For, ast.comprehension)) and isinstance(node.iter, ast.Name):
+                out.add(node.iter.id)
+            elif isinstance(node, ast.Call) and len(node.args) == 1 and isinstance(node.args[0], ast.Name):
+                func = node.func.id if isinstance(node.func, ast.Name) else getattr(node.func, "attr", "")
+                if func in _REDUCERS:
+                    out.add(node.args[0].id)
+            elif isinstance(node, ast.Attribute) and isinstance(node.value, ast.Name) and node.attr in _REDUCERS:
+                out.add(node.value.id)
+    return out & wanted
+
+
+def with_arrays(points: list[dict[str, Any]], arrays: set[str], ranges: Mapping[str, Range], seed: int) -> list[dict[str, Any]]:
+    """Replace each array input's scalar by a tuple of ARRAY_SIZE values from its range."""
+    from auditor.numerics.inputs import sample_default, sample_range
+
+    if not arrays:
+        return points
+    rng = np.random.default_rng(seed + 7919)
+    out = []
+    for point in points:
+        new = dict(point)
+        for name in sorted(arrays):
+            r = ranges.get(name)
+            values = sample_range(r, ARRAY_SIZE + 3, rng)[-ARRAY_SIZE:] if r is not None else sample_default(ARRAY_SIZE + 16, rng)[-ARRAY_SIZE:]
+            new[name] = tuple(float(v) for v in values)
+        out.append(new)
+    return out

@@ -15,8 +15,9 @@ from auditor.numerics.budget import Budget, BudgetExceeded, NotEvaluable
 from auditor.numerics.interp import Tracer
 from auditor.numerics.reference import AGREE_DIGITS, MARGIN_BITS, START_BITS, NotConverged, converge
 
-#: Wall-clock allowance for all samples of one unit; past it the samples done so far are used.
-UNIT_SECONDS = 8.0
+#: Time one unit should take; slow units (long loops) are measured on fewer samples.
+TARGET_SECONDS = 1.5
+MIN_SAMPLES = 16
 PILOT = 6
 
 
@@ -43,6 +44,7 @@ class Sample:
     condition_log10: float | None = None
     bits: int = 0  #: precision of the reference
     note: str = ""  #: why the sample was excluded, if it was
+    digits: float = mx.DIGITS_FLOAT64  #: digits the float result carries (7.22 for float32)
 
 
 def flatten(value: Any) -> list[Any]:
@@ -57,7 +59,7 @@ def flatten(value: Any) -> list[Any]:
 def run_float(shadow: Shadow, point: dict[str, Any]) -> Any:
     shadow.budget.restart()
     with np.errstate(all="ignore"):
-        return shadow.float_fn(**point)
+        return shadow.float_fn(**{k: np.array(v, dtype=np.float64) if v.__class__ is tuple else v for k, v in point.items()})
 
 
 def run_ref(shadow: Shadow, point: dict[str, Any], bits: int) -> Any:
@@ -67,28 +69,34 @@ def run_ref(shadow: Shadow, point: dict[str, Any], bits: int) -> Any:
 
 
 def _mp(v: Any) -> Any:
+    if v.__class__ is tuple:
+        return np.array([_mp(x) for x in v], dtype=object)
     return mpmath.mpf(v) if isinstance(v, float) else v
 
 
-def settle_bits(shadow: Shadow, points: Sequence[dict[str, Any]]) -> int:
-    """Precision the pilot points need for 30 stable digits, plus a margin (once per unit)."""
-    pilot = _pilot(points, shadow.vary)
+def settle_bits(shadow: Shadow, points: Sequence[dict[str, Any]], seconds: float = 0.5) -> int:
+    """Precision the pilot points need for 30 stable digits, plus a margin (once per unit).
+    The first pilot point is always settled; the others while `seconds` last."""
+    start = time.monotonic()
     needed = START_BITS
-    for point in pilot:
+    for point in _pilot(points, shadow.vary):
         try:
             needed = max(needed, converge(lambda b: run_ref(shadow, point, b)).bits)
         except (NotConverged, ArithmeticError, ValueError, TypeError, IndexError):
-            continue  # this sample is judged again (and excluded if need be) in the main pass
+            pass  # this sample is judged again (and excluded if need be) in the main pass
+        if time.monotonic() - start > seconds:
+            break
     return needed + MARGIN_BITS
 
 
 def _pilot(points: Sequence[dict[str, Any]], vary: Sequence[str]) -> list[dict[str, Any]]:
-    chosen = list(range(min(PILOT, len(points))))
+    chosen = [0]
     for name in vary:
         sizes = [abs(p[name]) if isinstance(p.get(name), float) else 0.0 for p in points]
         if sizes:
-            chosen += [int(np.argmin(sizes)), int(np.argmax(sizes))]
-    return [points[i] for i in sorted(set(chosen))]
+            chosen += [int(np.argmax(sizes)), int(np.argmin(sizes))]
+    chosen += list(range(1, min(PILOT, len(points))))
+    return [points[i] for i in dict.fromkeys(chosen)]
 
 
 def _needs_recheck(loss: float, digits: float, bits: int) -> bool:
@@ -132,7 +140,7 @@ def measure_sample(shadow: Shadow, point: dict[str, Any], bits: int) -> Sample:
     if mx.out_of_range(rv[j]):
         return Sample(point, float_value=fv[j], reference=rv[j], note="exact result outside the float64 range")
     cond = _condition(shadow, point, rv[j], j, bits)
-    return Sample(point, fv[j], rv[j], loss, cond, bits)
+    return Sample(point, fv[j], rv[j], loss, cond, bits, digits=mx.digits_of(fv[j]))
 
 
 def _worst_component(fv: list[Any], rv: list[Any]) -> tuple[int, float]:
@@ -146,12 +154,7 @@ def _worst_component(fv: list[Any], rv: list[Any]) -> tuple[int, float]:
 def _condition(shadow: Shadow, point: dict[str, Any], base: Any, j: int, bits: int) -> float | None:
     """Forward differences at the reference precision over the unit's float inputs only."""
     shifted = []
-    for name in shadow.vary:
-        x = point.get(name)
-        if not isinstance(x, float) or x == 0 or not math.isfinite(x):
-            continue  # |x df/dx| = 0 at x = 0; integers and literals are not varied
-        with mpmath.workprec(bits):
-            moved = mpmath.mpf(x) * (1 + mpmath.ldexp(1, -mx.STEP_BITS))
+    for name, moved in _moves(shadow, point, bits):
         try:
             shifted.append(flatten(run_ref(shadow, {**point, name: moved}, bits))[j])
         except _FATAL:
@@ -164,16 +167,52 @@ def _condition(shadow: Shadow, point: dict[str, Any], base: Any, j: int, bits: i
         return mx.condition_log10(base, shifted)
 
 
-def measure_points(shadow: Shadow, points: Sequence[dict[str, Any]], seconds: float = UNIT_SECONDS) -> tuple[list[Sample], int, str]:
-    """Every point measured (until the unit's time allowance runs out): samples, bits, note."""
-    deadline = time.monotonic() + seconds
-    bits = settle_bits(shadow, points)
-    samples: list[Sample] = []
-    for point in points:
+def _moves(shadow: Shadow, point: dict[str, Any], bits: int) -> list[tuple[str, Any]]:
+    """Each float input (and each element of an array input) times (1 + 2^-STEP_BITS)."""
+    with mpmath.workprec(bits):
+        factor = 1 + mpmath.ldexp(1, -mx.STEP_BITS)
+        out: list[tuple[str, Any]] = []
+        for name in shadow.vary:
+            x = point.get(name)
+            if x.__class__ is tuple:
+                for i, v in enumerate(x):
+                    if isinstance(v, float) and v != 0 and math.isfinite(v):
+                        out.append((name, tuple(mpmath.mpf(u) * factor if k == i else u for k, u in enumerate(x))))
+            elif isinstance(x, float) and x != 0 and math.isfinite(x):
+                out.append((name, mpmath.mpf(x) * factor))  # |x df/dx| = 0 at x = 0: skipped
+    return out
+
+
+def measure_points(shadow: Shadow, points: Sequence[dict[str, Any]], seconds: float = TARGET_SECONDS) -> tuple[list[Sample], int, str]:
+    """Every point measured: samples, reference bits, and a note when fewer were measured.
+
+    The first sample's cost sets how many fit in `seconds` (at least MIN_SAMPLES, spread
+    evenly over the planned points, the first ones kept); a hard stop comes at 3 * `seconds`.
+    """
+    start = time.monotonic()
+    bits = settle_bits(shadow, points, seconds / 4)
+    samples, costs = [], []
+    for point in points[:4]:  # the median cost of the first few samples (the very first may import)
+        began = time.monotonic()
         samples.append(measure_sample(shadow, point, bits))
-        if time.monotonic() > deadline and len(samples) < len(points):
-            return samples, bits, f"stopped after {len(samples)} of {len(points)} samples (time allowance {seconds:g} s)"
+        costs.append(max(time.monotonic() - began, 1e-6))
+    cost = sorted(costs)[len(costs) // 2]
+    chosen = _spread(points, max(MIN_SAMPLES, len(samples) + int((seconds - (time.monotonic() - start)) / cost)))
+    for point in chosen[len(samples):]:
+        samples.append(measure_sample(shadow, point, bits))
+        if time.monotonic() - start > 3 * seconds and len(samples) < len(chosen):
+            break
+    if len(samples) < len(points):
+        return samples, bits, f"measured {len(samples)} of {len(points)} samples (about {cost * 1e3:.0f} ms each; time allowance)"
     return samples, bits, ""
+
+
+def _spread(points: Sequence[dict[str, Any]], count: int) -> list[dict[str, Any]]:
+    if count >= len(points):
+        return list(points)
+    head = min(len(points), max(4, count // 4))
+    step = (len(points) - head) / max(1, count - head)
+    return [*points[:head], *(points[head + int(i * step)] for i in range(count - head))]
 
 
 def trace_terms(shadow: Shadow, point: dict[str, Any], bits: int) -> tuple[list[Any], list[Any]]:

@@ -77,7 +77,7 @@ def summarize(samples: Sequence[Sample], inputs_reason: str, note: str = "", ser
         digits_lost_max=round(max(losses), 2),
         digits_lost_median=round(statistics.median(losses), 2),
         condition_log10_max=round(max(finite), 2) if finite else None,
-        worst_inputs={k: _plain(v) for k, v in worst.inputs.items()},
+        worst_inputs={k: _plain(v) for k, v in worst.inputs.items() if v.__class__ is not tuple},
         float_value=_float_out(worst.float_value),
         reference_value=reference_text(worst.reference),
         verdict=verdict,
@@ -89,7 +89,8 @@ def summarize(samples: Sequence[Sample], inputs_reason: str, note: str = "", ser
 def _explain(verdict: Verdict, worst: Sample) -> str:
     loss = worst.digits_lost or 0.0
     cond = mx.explained(worst.condition_log10)
-    where = ", ".join(f"{k}={_plain(v):.6g}" if isinstance(_plain(v), float) else f"{k}={v}" for k, v in worst.inputs.items())
+    where = ", ".join(f"{k}={_plain(v):.6g}" if isinstance(_plain(v), float) else f"{k}={v}"
+                      for k, v in worst.inputs.items() if v.__class__ is not tuple) or "an array input"
     if verdict is Verdict.BENIGN:
         return f"at most {loss:.1f} digits lost (under the {mx.BENIGN_BELOW:g}-digit threshold)"
     if verdict is Verdict.UNSTABLE:

@@ -18,6 +18,7 @@ from auditor.rule import Context
 from auditor.series import accumulations
 
 #: Rules whose unit is the enclosing function (loops and series), not the flagged expression.
+SERIES_RULES = frozenset({"alternating-series", "divergent-series"})
 FUNCTION_RULES = frozenset({
     "alternating-series", "divergent-series", "naive-accumulation", "step-accumulation",
     "low-precision-accumulator",
@@ -80,10 +81,18 @@ def char_span(node: ast.AST, lines: Sequence[str]) -> Span | None:
                 chars(node.end_lineno, node.end_col_offset))  # type: ignore[attr-defined,arg-type]
 
 
-def locate(tree: ast.Module, span: Span, lines: Sequence[str]) -> ast.AST | None:
-    """The outermost node whose span is exactly `span` (statement-level nodes preferred)."""
+def locate(tree: ast.Module, span: Span, lines: Sequence[str], inside: bool = False) -> ast.AST | None:
+    """The outermost node whose span is exactly `span`; with `inside`, failing that, the
+    outermost node lying within it (a rewrite in parentheses, or several statements)."""
     for node in ast.walk(tree):  # breadth first: outer nodes come first
         if getattr(node, "lineno", None) == span.line and char_span(node, lines) == span:
+            return node
+    if not inside:
+        return None
+    for node in ast.walk(tree):
+        got = char_span(node, lines) if hasattr(node, "lineno") else None
+        if got is not None and (got.line, got.column) >= (span.line, span.column) \
+                and (got.end_line, got.end_column) <= (span.end_line, span.end_column):
             return node
     return None
 
@@ -181,16 +190,18 @@ def _loop_terms(loop: ast.For | ast.While) -> dict[int, bool]:
     return {id(a.term): a.subtract for a in found if a.target == target}
 
 
-def build_unit(ctx: Context, node: ast.AST, module: SourceModule) -> Unit:
-    """The unit for a flagged node, or NotEvaluable saying why there is none."""
+def build_unit(ctx: Context, node: ast.AST, module: SourceModule, rule: str = "") -> Unit:
+    """The unit for a flagged node, or NotEvaluable saying why there is none. Expressions are
+    their own unit, except for loop rules (the enclosing function is); series rules trace terms."""
     function = enclosing_function(ctx, node)
-    if isinstance(node, ast.expr):
+    series = rule in SERIES_RULES or not rule
+    if isinstance(node, ast.expr) and (rule not in FUNCTION_RULES or function is None or _sum_terms(ctx, node)):
         expr = inline(ctx, node, module)
-        return Unit(expr, free_names(expr, module), function, _sum_terms(ctx, expr))
+        return Unit(expr, free_names(expr, module), function, _sum_terms(ctx, expr) if series else {})
     if function is None:
         raise NotEvaluable("the flagged statement is not inside a function (nothing to call it with)")
     loops = [node] if isinstance(node, (ast.For, ast.While)) else [a for a in ctx.ancestors(node) if isinstance(a, (ast.For, ast.While))][:1]
-    trace = _loop_terms(loops[0]) if loops else {}
+    trace = _loop_terms(loops[0]) if loops and series else {}
     params = [a.arg for a in (*function.args.posonlyargs, *function.args.args, *function.args.kwonlyargs)]
     return Unit(function, params, function, trace)
 

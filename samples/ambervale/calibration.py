@@ -46,6 +46,15 @@ def apply_calibration(coeffs, resistance_ohm):
     return np.polyval(coeffs, np.log(resistance_ohm))
 
 
+def stage_temperature_rise(conductance_w_per_k, heat_loads_w):
+    """Steady-state rise (K) of each stage of the thermal network: G dT = P.
+
+    The conductance matrix of the five-stage stand spans six decades (copper braids
+    against G-10 rods), so G is badly conditioned.
+    """
+    return np.linalg.inv(conductance_w_per_k) @ heat_loads_w
+
+
 def solve_bridge(conductance, currents):
     """Node voltages of the bridge network: solve G v = i directly."""
     return np.linalg.solve(conductance, currents)

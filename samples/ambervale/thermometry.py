@@ -64,14 +64,19 @@ def pt100_temperature_stable(w):
     return c / q
 
 
+def rx7_resistance(temp_k):
+    """Resistance (ohm) of the RX-7 chip at temp_k."""
+    return RX7_R_INF * math.exp(RX7_T0_K / temp_k)
+
+
 # auditor: domain temp_k=0.05..4
 def rx7_sensitivity(temp_k):
     """dR/dT of the RX-7 chip in ohm/K, by a forward difference.
 
     The step was chosen "as small as possible" by the original author.
     """
-    h = 1e-10
-    return (RX7_R_INF * math.exp(RX7_T0_K / (temp_k + h)) - RX7_R_INF * math.exp(RX7_T0_K / temp_k)) / h
+    h = 1e-12
+    return (rx7_resistance(temp_k + h) - rx7_resistance(temp_k)) / h
 
 
 def rx7_sensitivity_analytic(temp_k):

@@ -41,32 +41,28 @@ def planck_spectral_radiance(freq_hz, temp_k):
     return 2.0 * H_PLANCK * freq_hz**3 / (c * c) / math.expm1(x)
 
 
-# auditor: domain w=0.9999..1.0001
-def pt100_temperature(w):
-    """Celsius temperature of a platinum sensor from the ratio w = R / R0 (t >= 0 branch).
+# auditor: domain dev=1e-9..1e-4
+def pt100_temperature(dev):
+    """Celsius temperature of a platinum sensor from the bridge's ratio deviation dev = R/R0 - 1.
 
-    Inverts R = R0 (1 + A t + B t^2) with the quadratic formula. The ice-point checks
-    before each cool-down read w within a few parts in 1e5 of one.
+    Inverts R = R0 (1 + A t + B t^2) (t >= 0 branch) with the quadratic formula. The
+    ratio bridge reports the deviation from the reference resistor directly, in parts
+    per million; the ice-point checks before each cool-down read a few ppm.
     """
     a = IEC_B
     b = IEC_A
-    c = 1.0 - w
+    c = -dev
     disc = b * b - 4.0 * a * c
     return (-b + math.sqrt(disc)) / (2.0 * a)
 
 
-def pt100_temperature_stable(w):
+def pt100_temperature_stable(dev):
     """Same inversion, written with the cancellation-free root (Vieta's formula)."""
     a = IEC_B
     b = IEC_A
-    c = 1.0 - w
+    c = -dev
     q = -0.5 * (b + math.copysign(math.sqrt(b * b - 4.0 * a * c), b))
     return c / q
-
-
-def rx7_resistance(temp_k):
-    """Resistance (ohm) of the RX-7 chip at temp_k."""
-    return RX7_R_INF * math.exp(RX7_T0_K / temp_k)
 
 
 # auditor: domain temp_k=0.05..4

@@ -4,7 +4,7 @@ from __future__ import annotations
 import time
 
 #: Loop passes (all loops together) allowed in one evaluation of a unit.
-MAX_STEPS = 200_000
+MAX_STEPS = 1_000_000
 #: Largest integer, in bits, the interpreter lets exist (10**10**10 is refused before it is built).
 MAX_INT_BITS = 1 << 16
 #: Largest argument of an exact factorial (math.factorial(10**9) would run for hours).

@@ -40,8 +40,8 @@ def index_degree(expr: ast.AST, idx: set[str], resolve: Resolver | None = None, 
         return left + right
     if isinstance(expr.op, ast.Div):
         return left - right
-    if isinstance(expr.op, ast.Sub) and not (p.names_in(expr.left) & idx):
-        return 0.0  # `n - k` counts down: bounded, not growing
+    if isinstance(expr.op, ast.Sub) and not (p.names_in(expr.left) & idx) and right <= 1:
+        return 0.0  # `n - k` counts down to 0 in a loop of n passes; `mu - (2k-1)**2` does grow
     if isinstance(expr.op, (ast.Add, ast.Sub)):
         return max(left, right)
     if isinstance(expr.op, ast.Pow):
@@ -156,6 +156,10 @@ def _stop_tests(loop: Loop) -> list[ast.expr]:
 def smallest_term_stop(loop: Loop, term_names: set[str], idx: set[str], xnames: set[str]) -> bool:
     """A stop that compares a term with its neighbour (`abs(t_next) > abs(t)`), or the counter with x."""
     family = _term_family(loop, term_names)
+    ratios = {  # `r = -k / x`: a test on the ratio itself (`abs(r) >= 1`) finds the smallest term too
+        t.id for n in _body_nodes(loop) if isinstance(n, ast.Assign)
+        for t in n.targets if isinstance(t, ast.Name) and p.names_in(n.value) & idx and p.names_in(n.value) & xnames
+    }
     for test in _stop_tests(loop):
         for cmp in (n for n in ast.walk(test) if isinstance(n, ast.Compare)):
             sides = [cmp.left, *cmp.comparators]
@@ -163,6 +167,8 @@ def smallest_term_stop(loop: Loop, term_names: set[str], idx: set[str], xnames: 
             if sum(1 for n in names if n & family) >= 2:
                 return True
             if any(n and n <= idx for n in names) and any(n & xnames for n in names):
+                return True
+            if any(n & ratios for n in names):
                 return True
     return False
 

@@ -39,7 +39,7 @@ _CMPS: dict[type, Callable[[object, object], bool]] = {
 _FUNCS: dict[str, Callable[..., object]] = {
     "factorial": lambda v: math.factorial(_small_int(v)), "gamma": math.gamma, "pow": lambda a, b: _power(a, b),
     "abs": abs, "sqrt": math.sqrt, "exp": math.exp, "log": math.log, "float": float, "int": int,
-    "min": min, "max": max, "sin": math.sin, "cos": math.cos,
+    "min": min, "max": max, "sin": math.sin, "cos": math.cos, "where": lambda c, a, b: a if c else b,
 }
 
 
@@ -61,6 +61,7 @@ class Recognised:
 
     kind: str
     var: str
+    negated: bool = False  #: the loop holds minus the function (`-log(1 + g)`)
 
 
 def _small_int(v: object) -> int:
@@ -86,7 +87,7 @@ class Machine:
         self.position = 0
 
     def value(self, node: ast.AST) -> object:
-        if isinstance(node, ast.Constant) and isinstance(node.value, (int, float, complex)) and not isinstance(node.value, bool):
+        if isinstance(node, ast.Constant) and isinstance(node.value, (int, float, complex)):
             return node.value
         if isinstance(node, ast.Name):
             return self._name(node)
@@ -222,10 +223,13 @@ class Machine:
         return False
 
 
-def _matches(values: list[tuple[float, object]]) -> str | None:
+def _matches(values: list[tuple[float, object]]) -> tuple[str, bool] | None:
+    if not all(isinstance(v, (int, float, complex)) for _, v in values):
+        return None
     for kind, ref in KNOWN.items():
-        if all(isinstance(v, (int, float)) and abs(v - ref(x)) <= 1e-9 * abs(ref(x)) for x, v in values):
-            return kind
+        for sign in (1, -1):
+            if all(abs(v - sign * ref(x)) <= 1e-9 * abs(ref(x)) for x, v in values):  # type: ignore[operator]
+                return kind, sign < 0
     return None
 
 
@@ -242,7 +246,7 @@ def recognise(run: Callable[[str, float], object], candidates: list[str]) -> Rec
         values = [(x, _guarded(lambda v, var=var: run(var, v), x)) for x in _PROBES]
         if any(v is None for _, v in values):
             continue
-        kind = _matches(values)
-        if kind is not None:
-            return Recognised(kind, var)
+        found = _matches(values)
+        if found is not None:
+            return Recognised(found[0], var, found[1])
     return None

@@ -31,7 +31,8 @@ DESCRIBED: dict[str, str] = {
 def module_for(ctx: Context, node: ast.AST) -> str:
     """The library the file computes with: cmath when the code is complex, else math, else numpy."""
     scope = ctx.scope(node)
-    if any(p.callee_module(ctx, n) == "cmath" for n in ast.walk(scope)):
+    complex_literal = any(isinstance(n, ast.Constant) and isinstance(n.value, complex) for n in ast.walk(scope))
+    if complex_literal or any(p.callee_module(ctx, n) == "cmath" for n in ast.walk(scope)):
         return "cmath"
     if ctx.imports.imports_any("math"):
         return "math"
@@ -40,7 +41,7 @@ def module_for(ctx: Context, node: ast.AST) -> str:
     return "cmath" if ctx.imports.imports_any("cmath") else "math"
 
 
-def library_call(ctx: Context, kind: str, var: str, module: str) -> tuple[str, tuple[str, ...]] | None:
+def library_call(ctx: Context, kind: str, var: str, module: str, negated: bool = False) -> tuple[str, tuple[str, ...]] | None:
     """`math.exp(-x)` (in the file's own import style) for a recognised series, with imports needed."""
     func, template = LIBRARY[kind]
     if module == "numpy":
@@ -48,7 +49,7 @@ def library_call(ctx: Context, kind: str, var: str, module: str) -> tuple[str, t
     elif module == "cmath" and func not in _CMATH_HAS:
         return None
     spelling, imports = p.spelled(ctx, module, func)
-    return f"{spelling}({template.format(x=var)})", imports
+    return f"{'-' if negated else ''}{spelling}({template.format(x=var)})", imports
 
 
 def read_after(ctx: Context, loop: ast.stmt, names: set[str]) -> bool:

@@ -53,21 +53,48 @@ def _product(expr: ast.AST) -> bool:
     return isinstance(expr, ast.BinOp) and isinstance(expr.op, (ast.Mult, ast.Div))
 
 
+def ratio_degree(ctx: Context, loop: Loop, expr: ast.AST, depth: int = 3) -> float:
+    """Degree in the index of the ratio t(k+1)/t(k) of a term: recurrences, factorials, locals combined."""
+    idx = index_names(loop)
+    if isinstance(expr, ast.Name) and expr.id not in idx and depth > 0:
+        found = recurrence(loop, expr.id)
+        if found is not None:
+            return index_degree(found[1], idx, in_loop_resolver(loop))
+        value = in_loop_resolver(loop)(expr.id)
+        return ratio_degree(ctx, loop, value, depth - 1) if value is not None else 0.0
+    if isinstance(expr, ast.UnaryOp):
+        return ratio_degree(ctx, loop, expr.operand, depth)
+    if isinstance(expr, ast.Call):
+        return factorial_weight(ctx, expr, idx)
+    if not isinstance(expr, ast.BinOp):
+        return 0.0
+    left, right = ratio_degree(ctx, loop, expr.left, depth), ratio_degree(ctx, loop, expr.right, depth)
+    if isinstance(expr.op, ast.Mult):
+        return left + right
+    if isinstance(expr.op, ast.Div):
+        return left - right
+    if isinstance(expr.op, ast.Pow):
+        n = p.literal_number(expr.right)
+        return left * n if isinstance(n, (int, float)) else 0.0
+    return max(left, right)
+
+
 def growth(ctx: Context, loop: Loop, acc: Accumulation) -> Growth | None:
     """The term of `acc` grows factorially with the index (ratio of positive degree in k), or None."""
+    if ratio_degree(ctx, loop, acc.term) <= 0:
+        return None
     idx = index_names(loop)
     resolve = in_loop_resolver(loop)
-    names = sorted(p.names_in(acc.term) - idx)
-    for name in names:
-        found = recurrence(loop, name)
+    if isinstance(acc.term, ast.Name):
+        found = recurrence(loop, acc.term.id)
         if found is not None:
             stmt, value = found
-            if index_degree(value, idx, resolve) > 0:
-                return Growth(name, stmt, value, frozenset(_reads(value, resolve) - idx - {name}))
-            return None
-    if factorial_weight(ctx, acc.term, idx, resolve) > 0:
-        return Growth(None, None, acc.term, frozenset(_reads(acc.term, resolve) - idx))
-    return None
+            return Growth(acc.term.id, stmt, value, frozenset(_reads(value, resolve) - idx - {acc.term.id}))
+    xnames = set()
+    for name in value_names(acc.term) - idx:
+        found = recurrence(loop, name)
+        xnames |= _reads(found[1], resolve) - {name} if found is not None else _reads(ast.Name(name, ast.Load()), resolve)
+    return Growth(None, None, acc.term, frozenset(xnames - idx))
 
 
 def value_names(expr: ast.AST) -> set[str]:
@@ -111,14 +138,9 @@ def positive_series(ctx: Context, loop: Loop, acc: Accumulation) -> bool:
     if alternation(ctx, loop, acc) is not None or acc.subtract:
         return False
     idx = index_names(loop)
-    resolve = in_loop_resolver(loop)
-    for name in sorted(p.names_in(acc.term) - idx):
-        found = recurrence(loop, name)
-        if found is not None:
-            return sign_of(ctx, loop, found[1]) > 0 and index_degree(found[1], idx, resolve) < 0
-    if factorial_weight(ctx, acc.term, idx, resolve) < 0:
+    if ratio_degree(ctx, loop, acc.term) < 0:
         return True
-    return _index_power(acc.term, idx, resolve)
+    return _index_power(acc.term, idx, in_loop_resolver(loop))
 
 
 def _index_power(expr: ast.expr, idx: set[str], resolve) -> bool:  # type: ignore[no-untyped-def]

@@ -3,8 +3,8 @@
 When the terms of a series change sign, partial sums can grow far beyond the final value
 before they shrink back to it. Each partial sum carries a rounding error relative to its own
 size, so the result loses about log10(max |partial sum| / |result|) digits. The Taylor series
-of e^-x summed at x = 10 passes through terms near 2.7e3 to reach 4.5e-5, losing about eight of
-sixteen digits (common practice). The same holds for a sign factor `(-1)**k`, a negative base
+of e^-x summed at x = 10 passes through terms near 2.7e3 to reach 4.5e-5, losing about seven of
+sixteen digits (measured against mpmath). The same holds for a sign factor `(-1)**k`, a negative base
 `(-x)**k`, a sign flipped each pass, a term recurrence with a negative ratio (`t *= -x / k`),
 parity branches, sign arrays combined with `np.dot`, and for two positive partial sums (even
 and odd terms) subtracted afterwards. Remedies: evaluate the library function; for e^-x sum the
@@ -121,7 +121,7 @@ class AlternatingSeries(Rule):
             known = _recognise_vector(ctx, node, idx)
             fix, rewrite, imports = "use the closed form or library function", None, ()
             if known is not None:
-                call = s.library_call(ctx, known.kind, known.var, s.module_for(ctx, node))
+                call = s.library_call(ctx, known.kind, known.var, _module(ctx, node), known.negated)
                 if call is not None:
                     rewrite, imports = call
                     fix = f"use `{rewrite}`"
@@ -134,6 +134,14 @@ class AlternatingSeries(Rule):
             if twin is not None:
                 yield Hit(node, f"positive series later subtracted (`{p.text(ctx, twin)}`, line {twin.lineno}) "
                           "cancel exactly as the alternating series does; use the library function")
+
+
+def _module(ctx: Context, node: ast.AST) -> str:
+    """numpy for array reductions (`np.sum`, `@`, `.sum()`) when the file imports it, else the file's library."""
+    array_form = not isinstance(node, ast.Call) or p.callee_module(ctx, node) == "numpy" or ctx.qualname(node.func) is None
+    if array_form and not (isinstance(node, ast.Call) and isinstance(node.func, ast.Name)) and ctx.imports.imports_any("numpy"):
+        return "numpy"
+    return s.module_for(ctx, node)
 
 
 def _recognise_vector(ctx: Context, node: ast.AST, idx: set[str]) -> s.Recognised | None:

@@ -95,14 +95,14 @@ class DivergentSeries(Rule):
             return
 
     def _hit(self, ctx: Context, loop: ast.For | ast.While, acc: s.Accumulation, g: s.Growth) -> Hit:
-        x = ", ".join(sorted(g.xnames)) or "x"
-        count = p.literal_number(s.range_stop(loop)) if s.range_stop(loop) is not None else None  # type: ignore[arg-type]
+        x = _argument(g) or "x"
+        count = _count(loop)
         if g.name is not None and g.stmt is not None:
             rewrite = s.guard_recurrence(ctx, loop, g.stmt, g.name)
         else:
             rewrite = s.guard_explicit(ctx, loop, acc.stmt, acc.target, acc.term, acc.subtract)
         if isinstance(loop, ast.While) and count is None:
-            what = "the terms grow again once the index passes about |" + x + "|, so a tolerance test alone may never stop"
+            what = "past the smallest term the terms grow again, so a tolerance test alone may never stop"
         elif isinstance(count, int):
             what = f"{count} terms are summed whatever {x} is, so for |{x}| below about {count} terms past the smallest one are added"
         else:
@@ -121,3 +121,24 @@ class DivergentSeries(Rule):
             yield Hit(node, "divergent series (factorial over a power): every term is summed whatever the argument, "
                       "so past the smallest term the error grows factorially; sum in a loop that stops at the "
                       "smallest term, or use a convergent method")
+
+
+def _count(loop: ast.For | ast.While) -> int | None:
+    """The number of passes of `for k in range(a, b)` with literal bounds, else None."""
+    if not (isinstance(loop, ast.For) and isinstance(loop.iter, ast.Call) and isinstance(loop.iter.func, ast.Name)):
+        return None
+    bounds = [p.literal_number(a) for a in loop.iter.args]
+    if loop.iter.func.id != "range" or not bounds or len(bounds) > 2 or not all(isinstance(b, int) for b in bounds):
+        return None
+    return len(range(*bounds))  # type: ignore[arg-type]
+
+
+def _argument(g: s.Growth) -> str:
+    """The series argument: variables in a denominator, outside function calls (`x` in `k! / x**k`)."""
+    names: set[str] = set()
+    for node in ast.walk(g.expr):
+        if isinstance(node, ast.BinOp) and isinstance(node.op, ast.Div):
+            inside_calls = {id(n) for c in ast.walk(node.right) if isinstance(c, ast.Call) for n in ast.walk(c)}
+            names |= {n.id for n in ast.walk(node.right) if isinstance(n, ast.Name) and id(n) not in inside_calls}
+    names &= set(g.xnames)
+    return ", ".join(sorted(names or g.xnames))

@@ -118,7 +118,8 @@ def _ref_full(n: Any, fill: Any, dtype: Any = None, **_: Any) -> Any:
 
 def _ref_arange(*args: Any, dtype: Any = None, **_: Any) -> Any:
     out = _sized(np.arange)(*[float(a) if isinstance(a, mpmath.mpf) else a for a in args])
-    return out if out.dtype.kind in "iu" else _obj(out)
+    # Object arrays even for integers: numpy would turn mpf operands of an int64 array into float64.
+    return np.array([int(v) for v in out], dtype=object) if out.dtype.kind in "iu" else _obj(out)
 
 
 def _ref_linspace(lo: Any, hi: Any, num: int = 50, endpoint: bool = True, **_: Any) -> Any:

@@ -27,6 +27,12 @@ KNOWN: dict[str, Callable[[float], float]] = {
     "atan": math.atan,
     "log1p": math.log1p,
 }
+try:  # the Bessel J0 power series is recognised only where scipy is present
+    from scipy.special import j0 as _j0
+
+    KNOWN["j0"] = lambda x: float(_j0(x))
+except ImportError:  # pragma: no cover - scipy is a declared dependency
+    pass
 
 _BINOPS: dict[type, Callable[[object, object], object]] = {
     ast.Add: operator.add, ast.Sub: operator.sub, ast.Mult: operator.mul, ast.Div: operator.truediv,

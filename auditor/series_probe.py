@@ -97,15 +97,33 @@ def _runner(ctx: Context, anchor: ast.AST, body: Callable[[Machine], object]) ->
     func, stmts = preamble(ctx, anchor)
     if func is None:
         return None
-    env, candidates = parameters(func, [anchor, *stmts])
+    env, params = parameters(func, [anchor, *stmts])
+    local = _local_arguments(anchor, stmts)
 
     def run(var: str, x: float) -> object:
         start = dict(env)
-        start.update({c: 0.5 for c in candidates})
-        start[var] = x
-        return body(_machine(ctx, stmts, start))
+        start.update({c: 0.5 for c in params})
+        if var in params:
+            start[var] = x
+        m = _machine(ctx, stmts, start)
+        if var in local:
+            m.env[var] = x  # a local argument (`x = t / tau`) is probed after the lines that compute it
+        return body(m)
 
-    return recognise(run, candidates)
+    return recognise(run, [*local, *params])
+
+
+def _local_arguments(anchor: ast.AST, stmts: list[ast.stmt]) -> list[str]:
+    """Locals the series reads but does not change, computed before it from other variables."""
+    stored = {n.id for n in ast.walk(anchor) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Store)}
+    read = p.names_in(anchor) - stored
+    out = []
+    for stmt in stmts:
+        if isinstance(stmt, ast.Assign) and len(stmt.targets) == 1 and isinstance(stmt.targets[0], ast.Name):
+            name = stmt.targets[0].id
+            if name in read and p.has_free_names(stmt.value) and name not in out:
+                out.append(name)
+    return out
 
 
 def recognise_loop(ctx: Context, loop: ast.For | ast.While, acc: str) -> Recognised | None:

@@ -24,6 +24,8 @@ MAGNITUDE: dict[str, str] = {
     "|x| ≈ 40)",
     "cos": "the terms peak near e^|x| / sqrt(2π|x|), so about 0.43·|x| digits are lost (3 at x = 10, all 16 by "
     "|x| ≈ 40)",
+    "j0": "the terms peak near e^|x| / sqrt(2π|x|), so about 0.4·|x| digits are lost (8 at x = 20, all 16 by "
+    "|x| ≈ 38)",
     "atan": "it loses little for |x| < 1 but converges slowly near |x| = 1 and not at all beyond",
     "log1p": "it loses little for |x| < 1 but converges slowly near |x| = 1 and not at all beyond",
 }

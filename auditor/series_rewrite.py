@@ -14,7 +14,10 @@ LIBRARY: dict[str, tuple[str, str]] = {
     "cos": ("cos", "{x}"),
     "atan": ("atan", "{x}"),
     "log1p": ("log1p", "{x}"),
+    "j0": ("j0", "{x}"),
 }
+#: series whose library function lives in one module only
+_ONLY_IN = {"j0": "scipy.special"}
 _NUMPY_NAMES = {"atan": "arctan"}
 _CMATH_HAS = {"exp", "sin", "cos", "atan"}
 #: what each series is, for messages
@@ -25,6 +28,7 @@ DESCRIBED: dict[str, str] = {
     "cos": "the Taylor series of cos x",
     "atan": "the Maclaurin series of atan x",
     "log1p": "the Mercator series of log(1 + x)",
+    "j0": "the power series of the Bessel function J0",
 }
 
 
@@ -44,6 +48,7 @@ def module_for(ctx: Context, node: ast.AST) -> str:
 def library_call(ctx: Context, kind: str, var: str, module: str, negated: bool = False) -> tuple[str, tuple[str, ...]] | None:
     """`math.exp(-x)` (in the file's own import style) for a recognised series, with imports needed."""
     func, template = LIBRARY[kind]
+    module = _ONLY_IN.get(kind, module)
     if module == "numpy":
         func = _NUMPY_NAMES.get(func, func)
     elif module == "cmath" and func not in _CMATH_HAS:

@@ -53,8 +53,9 @@ class Project:
 
 def module_key(path: str, function: str | None) -> str:
     """"samples/optics.py", "Lens.focus" -> "samples.optics:Lens.focus" (config and recorded keys)."""
-    module = path[:-3] if path.endswith(".py") else path
-    return f"{module.replace('/', '.').lstrip('.')}:{function or ''}"
+    from auditor.recorded import module_key as key
+
+    return key(path, function or "")
 
 
 def _lookup(table: Mapping[str, Any], key: str) -> Any:

@@ -17,7 +17,7 @@ from auditor.model import Finding, Measurement, Report, Rewrite, Severity, Span,
 from auditor.numerics.budget import NotEvaluable
 from auditor.numerics.inputs import DomainSyntaxError
 from auditor.numerics.plan import InputPlan, plan_inputs
-from auditor.numerics.run import Sample, measure_points, trace_terms
+from auditor.numerics.run import Sample, Shadow, measure_points, remeasure, trace_terms
 from auditor.numerics.summary import not_measured, summarize, worst_of
 from auditor.numerics.trace import series_figures
 from auditor.numerics.unit import Unit, build_unit, compile_shadow, locate, source_module
@@ -110,20 +110,33 @@ def _parse(source_text: str, path: str) -> tuple[ast.Module, Context]:
     return tree, Context(tree, path, source_text)
 
 
-def _measure_text(finding: Finding, source_text: str, span: Span, project: Project,
-                  points: Sequence[dict[str, Any]] | None = None, inside: bool = False) -> _Measured:
-    """Locate the unit at `span` in `source_text`, plan inputs (unless given) and measure."""
+def _shadow_at(finding: Finding, source_text: str, span: Span, inside: bool = False) -> tuple[Unit, Shadow, ast.Module] | str:
+    """Parse, locate the unit at `span` and compile it; a reason string when that fails."""
     try:
         tree, ctx = _parse(source_text, finding.path)
     except (SyntaxError, ValueError, RecursionError) as exc:
-        return _Measured(not_measured(f"the source does not parse: {exc}"), (), None)
+        return f"the source does not parse: {exc}"
     node = locate(tree, span, source_text.splitlines(), inside)
     if node is None:
-        return _Measured(not_measured("the flagged code could not be found again in the source"), (), None)
+        return "the flagged code could not be found again in the source"
     module = source_module(tree)
     try:
         unit = build_unit(ctx, node, module, finding.rule)
-        shadow = compile_shadow(unit, module)
+        return unit, compile_shadow(unit, module), tree
+    except NotEvaluable as exc:
+        return f"not evaluated: {exc}"
+    except RecursionError:
+        return "not evaluated: nested too deeply"
+
+
+def _measure_text(finding: Finding, source_text: str, span: Span, project: Project,
+                  points: Sequence[dict[str, Any]] | None = None) -> _Measured:
+    """Locate the unit at `span` in `source_text`, plan inputs (unless given) and measure."""
+    found = _shadow_at(finding, source_text, span)
+    if isinstance(found, str):
+        return _Measured(not_measured(found), (), None)
+    unit, shadow, tree = found
+    try:
         plan = _plan(unit, finding, source_text, tree, project) if points is None else InputPlan(list(points), "")
         if not plan.points:
             return _Measured(not_measured("no input points"), (), plan)
@@ -140,6 +153,20 @@ def _measure_text(finding: Finding, source_text: str, span: Span, project: Proje
         _, ref_terms = trace_terms(shadow, worst.inputs, worst.bits or bits)
         series = series_figures(ref_terms)
     return _Measured(summarize(samples, plan.reason, note, series), tuple(samples), plan)
+
+
+def _remeasure_text(finding: Finding, new_text: str, span: Span, before: Sequence[Sample]) -> _Measured:
+    """The rewritten unit on the original's samples (see auditor.numerics.run.remeasure)."""
+    found = _shadow_at(finding, new_text, span, inside=True)
+    if isinstance(found, str):
+        return _Measured(not_measured(found), (), None)
+    try:
+        samples = remeasure(found[1], before)
+    except NotEvaluable as exc:
+        return _Measured(not_measured(f"not evaluated: {exc}"), (), None)
+    except RecursionError:
+        return _Measured(not_measured("not evaluated: nested too deeply"), (), None)
+    return _Measured(summarize(samples, "inputs: the original's samples"), tuple(samples), None)
 
 
 def splice_text(source_text: str, span: Span, replacement: str, imports: Sequence[str] = ()) -> str | None:
@@ -176,8 +203,7 @@ def measure_finding(finding: Finding, source_text: str, config: Config, replacem
     new_text = splice_text(source_text, finding.span, replacement, imports)
     if new_text is None:
         return FindingMeasurement(before.measurement, before.samples, note="the span does not fit the source")
-    same = [s.inputs for s in before.samples]
-    after = _measure_text(finding, new_text, _replaced_span(finding.span, replacement), project, same, inside=True)
+    after = _remeasure_text(finding, new_text, _replaced_span(finding.span, replacement), before.samples)
     ok, note = verify_rewrite(before.samples, after.samples)
     if after.measurement.verdict is Verdict.NOT_MEASURED:
         ok, note = False, "rewrite not measured: " + after.measurement.reason

@@ -12,7 +12,7 @@ from auditor.numerics.budget import NotEvaluable
 from auditor.numerics.chart import digits_chart
 from auditor.numerics.inputs import DomainSyntaxError, Range, parse_domain, sample_points
 from auditor.numerics.interp import SourceModule
-from auditor.numerics.run import Sample, measure_points
+from auditor.numerics.run import Sample, measure_points, remeasure
 from auditor.numerics.summary import not_measured, summarize
 from auditor.numerics.unit import Unit, compile_shadow, free_names
 from auditor.numerics.verify import verify_rewrite
@@ -130,7 +130,8 @@ def _rewrite(expression: str, names: Sequence[str], module: SourceModule, points
         if isinstance(stmt, (ast.Import, ast.ImportFrom)):
             extra.imports.add(stmt)
     try:
-        after, _, _ = measure_expression(parse_expression(new_text), extra, names, points)
+        shadow = compile_shadow(Unit(parse_expression(new_text), list(names), None), extra)
+        after = remeasure(shadow, before)
     except (NotEvaluable, ProbeError) as exc:
         return {"text": new_text, "verified": False, "digits_lost_max_after": None, "rule": f.rule, "note": str(exc)}
     ok, note = verify_rewrite(before, after)

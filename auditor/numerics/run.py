@@ -9,6 +9,7 @@ from typing import Any
 
 import mpmath
 import numpy as np
+from mpmath import libmp
 
 from auditor.numerics import metrics as mx
 from auditor.numerics.budget import Budget, BudgetExceeded, NotEvaluable
@@ -31,6 +32,12 @@ class Shadow:
     budget: Budget
     float_tracer: Tracer = field(default_factory=Tracer)
     ref_tracer: Tracer = field(default_factory=Tracer)
+    arrays: bool = True  #: some input is an array (a tuple of floats); set per batch by `uses_arrays`
+    conditions: bool = True  #: compute condition numbers (off only to time the bare float + reference pass)
+
+
+def uses_arrays(shadow: Shadow, points: Sequence[dict[str, Any]]) -> None:
+    shadow.arrays = any(v.__class__ is tuple for p in points[:1] for v in p.values())
 
 
 @dataclass(frozen=True, slots=True)
@@ -45,6 +52,7 @@ class Sample:
     bits: int = 0  #: precision of the reference
     note: str = ""  #: why the sample was excluded, if it was
     digits: float = mx.DIGITS_FLOAT64  #: digits the float result carries (7.22 for float32)
+    index: int = 0  #: which output component (for tuple or array results)
 
 
 def flatten(value: Any) -> list[Any]:
@@ -57,15 +65,36 @@ def flatten(value: Any) -> list[Any]:
 
 
 def run_float(shadow: Shadow, point: dict[str, Any]) -> Any:
+    """The unit as written (callers silence numpy warnings once per batch: see `quiet`)."""
     shadow.budget.restart()
-    with np.errstate(all="ignore"):
-        return shadow.float_fn(**{k: np.array(v, dtype=np.float64) if v.__class__ is tuple else v for k, v in point.items()})
+    if shadow.arrays:
+        point = {k: np.array(v, dtype=np.float64) if v.__class__ is tuple else v for k, v in point.items()}
+    return shadow.float_fn(**point)
 
 
 def run_ref(shadow: Shadow, point: dict[str, Any], bits: int) -> Any:
+    """The unit in mpmath at `bits`; the local context is entered only when not already there."""
     shadow.budget.restart()
-    with mpmath.workprec(bits), np.errstate(all="ignore"):
-        return shadow.ref_fn(**{k: _mp(v) for k, v in point.items()})
+    args = {k: _mp(v) for k, v in point.items()} if shadow.arrays else {k: _MAKE(_from_float(v)) if v.__class__ is float else v for k, v in point.items()}
+    if mpmath.mp.prec == bits:
+        return shadow.ref_fn(**args)
+    with mpmath.workprec(bits):
+        return shadow.ref_fn(**args)
+
+
+class quiet:
+    """numpy warnings off and the working precision set, once for a whole batch of samples."""
+
+    def __init__(self, bits: int) -> None:
+        self.contexts = (np.errstate(all="ignore"), mpmath.workprec(bits))
+
+    def __enter__(self) -> None:
+        for c in self.contexts:
+            c.__enter__()
+
+    def __exit__(self, *exc: object) -> None:
+        for c in reversed(self.contexts):
+            c.__exit__(*exc)
 
 
 def _mp(v: Any) -> Any:
@@ -139,8 +168,8 @@ def measure_sample(shadow: Shadow, point: dict[str, Any], bits: int) -> Sample:
         j, loss = _worst_component(fv, rv)
     if mx.out_of_range(rv[j]):
         return Sample(point, float_value=fv[j], reference=rv[j], note="exact result outside the float64 range")
-    cond = _condition(shadow, point, rv[j], j, bits)
-    return Sample(point, fv[j], rv[j], loss, cond, bits, digits=mx.digits_of(fv[j]))
+    cond = _condition(shadow, point, rv[j], j, bits) if shadow.conditions else None
+    return Sample(point, fv[j], rv[j], loss, cond, bits, digits=mx.digits_of(fv[j]), index=j)
 
 
 def _worst_component(fv: list[Any], rv: list[Any]) -> tuple[int, float]:
@@ -163,23 +192,26 @@ def _condition(shadow: Shadow, point: dict[str, Any], base: Any, j: int, bits: i
             return None  # the step left the domain (a branch point or a domain edge)
     if not shifted:
         return None if base == 0 else -math.inf
-    with mpmath.workprec(bits):
-        return mx.condition_log10(base, shifted)
+    return mx.condition_log10(base, shifted)
+
+
+_FACTOR = mpmath.mpf(1) + mpmath.ldexp(1, -mx.STEP_BITS)
+_MAKE = mpmath.mp.make_mpf
+_from_float = libmp.from_float
 
 
 def _moves(shadow: Shadow, point: dict[str, Any], bits: int) -> list[tuple[str, Any]]:
     """Each float input (and each element of an array input) times (1 + 2^-STEP_BITS)."""
-    with mpmath.workprec(bits):
-        factor = 1 + mpmath.ldexp(1, -mx.STEP_BITS)
-        out: list[tuple[str, Any]] = []
-        for name in shadow.vary:
-            x = point.get(name)
-            if x.__class__ is tuple:
-                for i, v in enumerate(x):
-                    if isinstance(v, float) and v != 0 and math.isfinite(v):
-                        out.append((name, tuple(mpmath.mpf(u) * factor if k == i else u for k, u in enumerate(x))))
-            elif isinstance(x, float) and x != 0 and math.isfinite(x):
-                out.append((name, mpmath.mpf(x) * factor))  # |x df/dx| = 0 at x = 0: skipped
+    factor = _FACTOR  # 1 + 2^-30: x * factor is exact at any precision >= 84 bits (callers use >= 128)
+    out: list[tuple[str, Any]] = []
+    for name in shadow.vary:
+        x = point.get(name)
+        if x.__class__ is tuple:
+            for i, v in enumerate(x):
+                if isinstance(v, float) and v != 0 and math.isfinite(v):
+                    out.append((name, tuple(mpmath.mpf(u) * factor if k == i else u for k, u in enumerate(x))))
+        elif isinstance(x, float) and x != 0 and math.isfinite(x):  # |x df/dx| = 0 at x = 0: skipped
+            out.append((name, _MAKE(libmp.mpf_mul(libmp.from_float(x), factor._mpf_, 0))))
     return out
 
 
@@ -190,7 +222,14 @@ def measure_points(shadow: Shadow, points: Sequence[dict[str, Any]], seconds: fl
     evenly over the planned points, the first ones kept); a hard stop comes at 3 * `seconds`.
     """
     start = time.monotonic()
-    bits = settle_bits(shadow, points, seconds / 4)
+    uses_arrays(shadow, points)
+    with quiet(START_BITS):
+        bits = settle_bits(shadow, points, seconds / 4)
+    with quiet(bits):
+        return _measure_all(shadow, points, bits, start, seconds)
+
+
+def _measure_all(shadow: Shadow, points: Sequence[dict[str, Any]], bits: int, start: float, seconds: float) -> tuple[list[Sample], int, str]:
     samples, costs = [], []
     for point in points[:4]:  # the median cost of the first few samples (the very first may import)
         began = time.monotonic()
@@ -221,10 +260,56 @@ def trace_terms(shadow: Shadow, point: dict[str, Any], bits: int) -> tuple[list[
         return [], []
     shadow.float_tracer.log, shadow.ref_tracer.log = [], []
     try:
-        run_float(shadow, point)
-        run_ref(shadow, point, bits)
+        with quiet(bits):
+            run_float(shadow, point)
+            run_ref(shadow, point, bits)
         return list(shadow.float_tracer.log), list(shadow.ref_tracer.log)
     except Exception:
         return [], []
     finally:
         shadow.float_tracer.log = shadow.ref_tracer.log = None
+
+
+#: Samples on which a rewrite's own reference is computed to check it is the same function.
+SAME_FUNCTION_CHECKS = 16
+
+
+def remeasure(shadow: Shadow, before: Sequence[Sample]) -> list[Sample]:
+    """A rewrite on the original's samples: its float run against the original's reference (the
+    same function's exact value) and the original's condition number. Its own reference is
+    computed on SAME_FUNCTION_CHECKS samples, spread out and including the worst ones, so a
+    rewrite computing a different function is caught without paying a reference per sample."""
+    measured = [i for i, b in enumerate(before) if b.digits_lost is not None]
+    check = set(_spread(measured, SAME_FUNCTION_CHECKS)) if measured else set()
+    out: list[Sample] = []
+    bits = max((b.bits for b in before), default=START_BITS)
+    uses_arrays(shadow, [b.inputs for b in before])
+    with quiet(bits):
+        for i, b in enumerate(before):
+            out.append(_again(shadow, b, i in check))
+    worst = sorted(range(len(out)), key=lambda i: -(out[i].digits_lost or 0.0))[:2]
+    with quiet(bits):
+        for i in worst:
+            if i not in check and out[i].digits_lost is not None:
+                out[i] = _again(shadow, before[i], True)
+    return out
+
+
+def _again(shadow: Shadow, b: Sample, own_reference: bool) -> Sample:
+    if b.digits_lost is None:
+        return Sample(b.inputs, note=b.note or "excluded in the original")
+    try:
+        fv = flatten(run_float(shadow, b.inputs))
+        reference = b.reference
+        if own_reference:
+            rv = flatten(run_ref(shadow, b.inputs, b.bits))
+            reference = rv[b.index] if b.index < len(rv) else None
+    except _FATAL:
+        raise
+    except Exception as exc:
+        return Sample(b.inputs, note=f"rewrite raised {type(exc).__name__}")
+    if b.index >= len(fv):
+        return Sample(b.inputs, note="the rewrite returns fewer values")
+    f = fv[b.index]
+    loss = mx.digits_lost(f, b.reference, mx.digits_of(f))
+    return Sample(b.inputs, f, reference, loss, b.condition_log10, b.bits, digits=mx.digits_of(f), index=b.index)

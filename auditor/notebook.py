@@ -124,8 +124,9 @@ def _language(metadata: Any) -> str:
         return ""
     for key, field in (("language_info", "name"), ("kernelspec", "language")):
         table = metadata.get(key)
-        if isinstance(table, dict) and isinstance(table.get(field), str):
-            return table[field].strip().lower()
+        value = table.get(field) if isinstance(table, dict) else None
+        if isinstance(value, str):
+            return value.strip().lower()
     return ""
 
 

@@ -76,7 +76,7 @@ class Recorder:
         self.root, self.out = root, out
         self.targets: dict[str, dict[str, str]] = {}
         self.seen: dict[CodeType, object] = {}
-        self.samples: dict[str, list[dict[str, object]]] = {}
+        self.samples: dict[str, list[dict[str, float]]] = {}
         self.calls: dict[str, int] = {}
         self.rng = random.Random(0)
         self.previous: Any = None
@@ -89,7 +89,7 @@ class Recorder:
 
     def pytest_sessionfinish(self, session: Any, exitstatus: int) -> None:
         sys.setprofile(self.previous)
-        threading.setprofile(self.previous)  # type: ignore[arg-type]
+        threading.setprofile(self.previous)
         from auditor.recorded import save_recorded
 
         save_recorded(self.out, self.samples)
@@ -125,7 +125,7 @@ class Recorder:
     def record(self, key: str, frame: FrameType, code: CodeType) -> None:
         names = code.co_varnames[: code.co_argcount + code.co_kwonlyargcount]
         local = frame.f_locals
-        sample = {n: v for n in names if (v := numeric(local.get(n))) is not None}
+        sample: dict[str, float] = {n: v for n in names if (v := numeric(local.get(n))) is not None}
         if not sample:
             return
         count = self.calls[key] = self.calls.get(key, 0) + 1

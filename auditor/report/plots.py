@@ -6,7 +6,13 @@ import math
 import re
 from collections.abc import Sequence
 
+from typing import TYPE_CHECKING
+
 from auditor.model import Measurement, SeriesFigures
+
+if TYPE_CHECKING:  # matplotlib is optional: imported for real only inside the drawing functions
+    from matplotlib.axes import Axes
+    from matplotlib.figure import Figure
 
 FULL_DIGITS = 15.95  #: digits of a double (-log10 of 2^-53), the top of the digits-lost axis (CONTRACT.md)
 SIZE = (6.4, 3.2)  #: inches; 100 dpi in SVG user units
@@ -21,14 +27,14 @@ def available() -> bool:
     return True
 
 
-def _svg(fig: object, salt: str) -> str:
+def _svg(fig: Figure, salt: str) -> str:
     """The figure as an <svg> element: no XML prolog or metadata, ids salted so figures never collide."""
     import matplotlib
 
     buffer = io.StringIO()
     # text stays text (selectable, searchable); the browser supplies the sans-serif font
     with matplotlib.rc_context({"svg.hashsalt": salt, "svg.fonttype": "none"}):
-        fig.savefig(buffer, format="svg", bbox_inches="tight")  # type: ignore[attr-defined]
+        fig.savefig(buffer, format="svg", bbox_inches="tight")
     text = buffer.getvalue()
     text = text[text.index("<svg") :]
     text = re.sub(r"<metadata>.*?</metadata>\s*", "", text, flags=re.S)
@@ -41,7 +47,7 @@ def _salt_refs(text: str, salt: str) -> str:
     return re.sub(r'((?:xlink:)?href)="#([^"]+)"', lambda m: f'{m.group(1)}="#{salt}-{m.group(2)}"', text)
 
 
-def _figure() -> tuple[object, object]:
+def _figure() -> tuple[Figure, Axes]:
     from matplotlib.figure import Figure  # no pyplot: no global state, no GUI backend
 
     fig = Figure(figsize=SIZE)
@@ -71,20 +77,20 @@ def digits_lost_svg(m: Measurement, variable: str, after: float | None, salt: st
         for label, color, keep in (("input > 0", "tab:blue", 1), ("input < 0", "tab:purple", -1)):
             side = [(abs(x), d) for x, d in points if x * keep > 0]
             if side:
-                ax.scatter([x for x, _ in side], [d for _, d in side], s=12, color=color, label=label, zorder=3)  # type: ignore[attr-defined]
-        ax.set_xscale("log")  # type: ignore[attr-defined]
-        ax.xaxis.set_major_locator(LogLocator(base=10, numticks=9))  # type: ignore[attr-defined]
-        ax.set_xlabel(f"|{variable}|")  # type: ignore[attr-defined]
+                ax.scatter([x for x, _ in side], [d for _, d in side], s=12, color=color, label=label, zorder=3)
+        ax.set_xscale("log")
+        ax.xaxis.set_major_locator(LogLocator(base=10, numticks=9))
+        ax.set_xlabel(f"|{variable}|")
     else:
-        ax.scatter(xs, [d for _, d in points], s=12, color="tab:blue", label="input", zorder=3)  # type: ignore[attr-defined]
-        ax.set_xlabel(variable)  # type: ignore[attr-defined]
+        ax.scatter(xs, [d for _, d in points], s=12, color="tab:blue", label="input", zorder=3)
+        ax.set_xlabel(variable)
     if after is not None:
-        ax.axhline(after, color="tab:green", linestyle="--", label=f"rewrite, worst ({after:.1f})")  # type: ignore[attr-defined]
-    ax.set_ylim(-0.3, FULL_DIGITS + 0.5)  # type: ignore[attr-defined]
-    ax.set_ylabel("decimal digits lost")  # type: ignore[attr-defined]
-    ax.set_title("digits lost across the sampled inputs")  # type: ignore[attr-defined]
-    ax.grid(True, alpha=0.3)  # type: ignore[attr-defined]
-    ax.legend(loc="best", fontsize="small")  # type: ignore[attr-defined]
+        ax.axhline(after, color="tab:green", linestyle="--", label=f"rewrite, worst ({after:.1f})")
+    ax.set_ylim(-0.3, FULL_DIGITS + 0.5)
+    ax.set_ylabel("decimal digits lost")
+    ax.set_title("digits lost across the sampled inputs")
+    ax.grid(True, alpha=0.3)
+    ax.legend(loc="best", fontsize="small")
     return _svg(fig, salt)
 
 
@@ -94,21 +100,21 @@ def series_svg(s: SeriesFigures, salt: str) -> str | None:
     if not terms:
         return None
     fig, ax = _figure()
-    ax.semilogy([k for k, _ in terms], [t for _, t in terms], marker="o", markersize=3,  # type: ignore[attr-defined]
+    ax.semilogy([k for k, _ in terms], [t for _, t in terms], marker="o", markersize=3,
                 color="tab:blue", label="|term|")
     if 0 <= s.smallest_term_index < len(s.term_magnitudes) and s.term_magnitudes[s.smallest_term_index] > 0:
         k, t = s.smallest_term_index, s.term_magnitudes[s.smallest_term_index]
-        ax.plot([k], [t], marker="*", markersize=14, color="tab:red", linestyle="none",  # type: ignore[attr-defined]
+        ax.plot([k], [t], marker="*", markersize=14, color="tab:red", linestyle="none",
                 label=f"smallest term, k={k}")
     if s.optimal_terms is not None:
-        ax.axvline(s.optimal_terms - 0.5, color="tab:orange", linestyle=":",  # type: ignore[attr-defined]
+        ax.axvline(s.optimal_terms - 0.5, color="tab:orange", linestyle=":",
                    label=f"optimal truncation: {s.optimal_terms} terms")
     from matplotlib.ticker import MaxNLocator
 
-    ax.xaxis.set_major_locator(MaxNLocator(integer=True))  # type: ignore[attr-defined]
-    ax.set_xlabel("term index k")  # type: ignore[attr-defined]
-    ax.set_ylabel("|t_k|")  # type: ignore[attr-defined]
-    ax.set_title("term magnitudes at the worst input")  # type: ignore[attr-defined]
-    ax.grid(True, which="both", alpha=0.3)  # type: ignore[attr-defined]
-    ax.legend(loc="best", fontsize="small")  # type: ignore[attr-defined]
+    ax.xaxis.set_major_locator(MaxNLocator(integer=True))
+    ax.set_xlabel("term index k")
+    ax.set_ylabel("|t_k|")
+    ax.set_title("term magnitudes at the worst input")
+    ax.grid(True, which="both", alpha=0.3)
+    ax.legend(loc="best", fontsize="small")
     return _svg(fig, salt)

@@ -209,3 +209,24 @@ def cell_source(path: str | Path, cell: int) -> str:
                 raise NotebookError(f"{path}: cell {cell} is a cell magic, not Python")
             return found.text
     raise NotebookError(f"{path}: no code cell number {cell}")
+
+
+def _first_line(program: Program, cell: int) -> int:
+    for number, first, _ in program.starts:
+        if number == cell:
+            return first
+    raise NotebookError(f"no scanned code cell number {cell}")
+
+
+def to_program(finding: Finding, program: Program) -> Finding:
+    """The finding with its span in the joined program's lines (for measuring with every cell's imports)."""
+    if finding.cell is None:
+        return finding
+    shift = _first_line(program, finding.cell) - 1
+    s = finding.span
+    return finding.with_(span=Span(s.line + shift, s.column, s.end_line + shift, s.end_column))
+
+
+def from_program(measured: Finding, original: Finding) -> Finding:
+    """A finding measured in program coordinates, put back at its cell and line."""
+    return measured.with_(span=original.span, cell=original.cell)

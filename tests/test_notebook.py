@@ -161,3 +161,15 @@ def test_changed_since_maps_notebook_edits_to_cells(lab: Path) -> None:
     assert main(["scan", "thermo.ipynb", "--changed-since", "HEAD", "--format", "json", "--output", "r.json"]) == 1
     findings = json.loads((lab / "r.json").read_text())["findings"]
     assert [(f["cell"], f["line"], f["rule"]) for f in findings] == [(5, 5, "log-of-one-plus")]
+
+
+def test_program_coordinates_round_trip(lab: Path) -> None:
+    from auditor.notebook import from_program, to_program
+
+    program = program_source(lab / "thermo.ipynb")
+    lines = program.text.split("\n")
+    for f in scan_paths(["thermo.ipynb"]).findings:
+        moved = to_program(f, program)
+        assert lines[moved.span.line - 1][moved.span.column - 1 : moved.span.end_column - 1] == f.snippet
+        assert program.locate(moved.span.line) == (f.cell, f.span.line)
+        assert from_program(moved, f) == f

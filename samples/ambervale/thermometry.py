@@ -67,12 +67,12 @@ def pt100_temperature_stable(dev):
 
 # auditor: domain temp_k=0.05..4
 def rx7_sensitivity(temp_k):
-    """dR/dT of the RX-7 chip in ohm/K, by a forward difference.
+    """dR/dT of the RX-7 chip in ohm/K: the prefactor times a forward difference of the exponential.
 
     The step was chosen "as small as possible" by the original author.
     """
     h = 1e-12
-    return (rx7_resistance(temp_k + h) - rx7_resistance(temp_k)) / h
+    return RX7_R_INF * ((math.exp(RX7_T0_K / (temp_k + h)) - math.exp(RX7_T0_K / temp_k)) / h)
 
 
 def rx7_sensitivity_analytic(temp_k):

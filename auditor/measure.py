@@ -286,10 +286,14 @@ def measure_paths(paths: Sequence[str], config: Config, inputs: str | None = Non
     project = Project(config, _recorded(inputs))
     sources: dict[str, str | None] = {}
     findings = []
-    for f in report.findings:
-        if f.path not in sources:
-            sources[f.path] = _read(f.path, config)
-        findings.append(measure_one(f, sources[f.path], project))
+    from auditor.progress import progress
+
+    with progress(len(report.findings), "measuring findings") as bar:  # drawn only when stderr is a terminal
+        for f in report.findings:
+            if f.path not in sources:
+                sources[f.path] = _read(f.path, config)
+            findings.append(measure_one(f, sources[f.path], project))
+            bar.advance()
     seconds = round(report.stats.seconds + time.perf_counter() - started, 3)
     stats = Stats(report.stats.files, report.stats.lines, seconds)
     from dataclasses import replace

@@ -50,3 +50,28 @@ def test_one_step_draws_nothing_even_on_a_terminal() -> None:
         tty.flush()
         assert drain(master) == b""
     os.close(master)
+
+
+def test_measure_run_shows_the_bar_only_on_a_terminal(tmp_path) -> None:
+    import subprocess
+    import sys
+    from pathlib import Path
+
+    root = Path(__file__).resolve().parent.parent
+    (tmp_path / "gauge.py").write_text("import math\n\n\ndef gain(x):\n    return math.exp(x) - 1\n\n\n"
+                                       "def loss(y):\n    return math.log(1 + y)\n")
+    command = [sys.executable, "-m", "auditor", "measure", "gauge.py", "--samples", "16", "--fail-on", "never"]
+    env = {**os.environ, "PYTHONPATH": str(root)}
+    piped = subprocess.run(command, cwd=tmp_path, env=env, capture_output=True, text=True, timeout=300)
+    assert piped.returncode == 0 and piped.stderr == ""
+    master, slave = os.openpty()
+    child = subprocess.Popen(command, cwd=tmp_path, env=env, stdout=subprocess.PIPE, stderr=slave)
+    shown = b""
+    while child.poll() is None:  # keep our copy of the slave open: the buffer stays readable
+        shown += drain(master)
+    shown += drain(master)
+    child.communicate(timeout=300)
+    os.close(slave)
+    os.close(master)
+    assert child.returncode == 0
+    assert b"measuring findings" in shown

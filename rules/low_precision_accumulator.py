@@ -40,26 +40,35 @@ def dtype_keyword(call: ast.Call) -> ast.keyword | None:
     return next((k for k in call.keywords if k.arg == "dtype"), None)
 
 
-def low_array(ctx: Context, expr: ast.expr, depth: int = 3) -> str | None:
-    """The low format of an array expression: x.astype(np.float32), np.float32(x), t.half(), through locals."""
+def dtype_library(ctx: Context, dtype: ast.AST | None) -> str:
+    """'torch' for torch dtypes, else 'numpy' (strings and numpy scalars)."""
+    q = ctx.qualname(dtype) if dtype is not None else None
+    return "torch" if q is not None and q.startswith("torch.") else "numpy"
+
+
+def low_array(ctx: Context, expr: ast.expr, depth: int = 3) -> tuple[str, str] | None:
+    """(format, 'numpy' | 'torch') of a low-precision array: x.astype(np.float32), np.float32(x), t.half()."""
     expr = ctx.origin(expr)
     if not isinstance(expr, ast.Call) or depth <= 0:
         return None
     func = expr.func
     if isinstance(func, ast.Attribute) and ctx.qualname(func) is None:
         if func.attr in ("astype", "to", "type") and expr.args:
-            return low_dtype(ctx, expr.args[0])
+            fmt = low_dtype(ctx, expr.args[0])
+            return (fmt, dtype_library(ctx, expr.args[0])) if fmt else None
         if func.attr in ("half", "bfloat16") and not expr.args:
-            return _TORCH_CASTS[func.attr]
-        if func.attr in ("copy", "ravel", "flatten", "reshape") or func.attr == "T":
+            return _TORCH_CASTS[func.attr], "torch"
+        if func.attr in ("copy", "ravel", "flatten", "reshape"):
             return low_array(ctx, func.value, depth - 1)
     fam = ctx.family(expr)
     if fam in ("float32", "float16", "half", "single") and expr.args:
-        return _LOW.get(str(fam))
+        fmt = _LOW.get(str(fam))
+        return (fmt, dtype_library(ctx, func)) if fmt else None
     kw = dtype_keyword(expr)
-    if fam in ("array", "asarray", "zeros", "ones", "full", "empty", "arange", "linspace", "tensor", "from_numpy") \
-            or (ctx.qualname(func) or "").endswith((".tensor", ".zeros_like", ".ones_like", ".full_like")):
-        return low_dtype(ctx, kw.value) if kw is not None else None
+    if kw is not None and (fam in ("array", "asarray", "zeros", "ones", "full", "empty", "arange", "linspace", "tensor")
+                           or (ctx.qualname(func) or "").endswith((".zeros_like", ".ones_like", ".full_like"))):
+        fmt = low_dtype(ctx, kw.value)
+        return (fmt, dtype_library(ctx, kw.value)) if fmt else None
     return None
 
 
@@ -177,11 +186,14 @@ class LowPrecisionAccumulator(Rule):
 
     def _reduction(self, node: ast.Call, ctx: Context, kind: str, data: ast.expr) -> Iterator[Hit]:
         kw = dtype_keyword(node)
-        fmt = low_dtype(ctx, kw.value) if kw is not None else low_array(ctx, data)
-        if fmt is None or kw is not None and low_dtype(ctx, kw.value) is None:
+        if kw is not None:
+            fmt, library = low_dtype(ctx, kw.value), dtype_library(ctx, kw.value)
+        else:
+            fmt, library = low_array(ctx, data) or (None, "numpy")
+        if fmt is None:
             return
         builtin = isinstance(node.func, ast.Name) and ctx.qualname(node.func) is None
-        module = p.callee_module(ctx, node) or ("torch" if "torch" in ctx.imports.bindings.values() else "numpy")
+        module = p.callee_module(ctx, node) or library
         rewrite, imports = (None, ()) if builtin else with_float64_dtype(ctx, node, module)
         strong = fmt != "float32" or kind == "cumsum" or builtin
         how = "sequentially" if kind == "cumsum" or builtin else "pairwise"

@@ -84,11 +84,13 @@ def short_fixed(loop: ast.For) -> bool:
 
 def loop_names(loop: ast.For) -> set[str]:
     """Names that change from pass to pass: the loop target and everything assigned in the body."""
-    names = p.names_in(loop.target) | {n.id for n in ast.walk(loop.target) if isinstance(n, ast.Name)}
+    names = {n.id for n in ast.walk(loop.target) if isinstance(n, ast.Name)}
     for node in loop_statements(loop):
         if isinstance(node, (ast.Assign, ast.AugAssign, ast.AnnAssign, ast.For)):
             targets = node.targets if isinstance(node, ast.Assign) else [node.target]
-            names |= {n.id for t in targets for n in ast.walk(t) if isinstance(n, ast.Name)}
+            for t in targets:  # rebound names only: `self.x = ...` does not make `self` vary
+                elts = t.elts if isinstance(t, (ast.Tuple, ast.List)) else [t]
+                names |= {e.id for e in elts if isinstance(e, ast.Name)}
     return names
 
 
@@ -155,8 +157,8 @@ def wanted(ctx: Context, loop: ast.For, acc: Accumulation) -> bool:
             isinstance(init, ast.Constant) and isinstance(init.value, (str, bytes)):
         return False
     floaty = isinstance(init, ast.Constant) and isinstance(init.value, float) or float_evident(ctx, acc.term)
-    if not floaty or p.is_integer_valued(ctx, acc.term):
-        return False
+    if not floaty or p.is_integer_valued(ctx, acc.term) or p.reduction(ctx, acc.term) is not None:
+        return False  # a sum of sums (`grand += math.fsum(row)`) has only one addition per row
     if not p.names_in(acc.term) & loop_names(loop):
         return False  # a fixed step: the step-accumulation rule's pattern
     return not is_series(ctx, loop, acc.term) and not compensated(loop, acc) and read_after(ctx, loop, acc.target)

@@ -18,7 +18,7 @@ from auditor import patterns as p
 
 _NESTED = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)
 #: names that say "this is a step or a clock" when no value is visible
-_STEP_NAME = re.compile(r"^(d[a-z]{1,5}|h|step|.*_step|step_.*|tstep|delta|delta_.*|increment|spacing)$")
+_STEP_NAME = re.compile(r"^(d[a-z]{1,5}(_[a-z0-9]+)?|h|h_[a-z0-9]+|step|.*_step|step_.*|tstep|delta|delta_.*|increment|spacing)$")
 _CLOCK_NAME = re.compile(r"^(t|time|.*_time|time_.*|elapsed|clock|now|t_.*|.*_t|epoch_t)$")
 
 
@@ -36,8 +36,19 @@ def changing_names(loop: ast.For | ast.While) -> set[str]:
     for node in body_nodes(loop):
         if isinstance(node, (ast.Assign, ast.AugAssign, ast.AnnAssign, ast.For, ast.NamedExpr)):
             targets = node.targets if isinstance(node, ast.Assign) else [node.target]
-            names |= {n.id for t in targets for n in ast.walk(t) if isinstance(n, ast.Name)}
+            names |= {n.id for t in targets for n in _bound(t)}
     return names
+
+
+def _bound(target: ast.AST) -> Iterator[ast.Name]:
+    """Names a target rebinds (`t`, `a, b`), not the bases of `self.t` or `buf[i]`."""
+    if isinstance(target, ast.Name):
+        yield target
+    elif isinstance(target, (ast.Tuple, ast.List)):
+        for elt in target.elts:
+            yield from _bound(elt)
+    elif isinstance(target, ast.Starred):
+        yield from _bound(target.value)
 
 
 def step_update(node: ast.AST) -> tuple[ast.expr, ast.expr, bool] | None:

@@ -149,6 +149,30 @@ def two_pass_text(ctx: Context, left: ast.expr, m: Moment) -> tuple[str | None, 
     return f"{mean}(({xs} - {mean}({xs})) * ({ys} - {mean}({ys})))", imports
 
 
+def counts(ctx: Context, n: ast.expr, data: ast.expr) -> bool:
+    """True when `n` (or its local) is len(data), data.size or data.shape[0]."""
+    n = ctx.origin(n)
+    if isinstance(n, ast.Call) and isinstance(n.func, ast.Name) and n.func.id == "len" and p.single_arg(n) is not None:
+        return p.same_expr(n.args[0], data)
+    if isinstance(n, ast.Attribute) and n.attr == "size":
+        return p.same_expr(n.value, data)
+    return isinstance(n, ast.Subscript) and isinstance(n.value, ast.Attribute) and n.value.attr == "shape" \
+        and p.is_number(n.slice, 0) and p.same_expr(n.value.value, data)
+
+
+def scaled_variance_text(ctx: Context, node: ast.BinOp, m: Moment) -> tuple[str | None, tuple[str, ...]]:
+    """`n * var(x)` for sum_sq - sum**2 / n when n is the length of x (the sum of squared deviations)."""
+    (k1, x), (k2, _) = m[1]
+    right = node.right
+    if k1 != k2 or not isinstance(right, ast.BinOp) or not counts(ctx, right.right, x):
+        return None, ()
+    if isinstance(ctx.origin(x), ast.Name) and ctx.binding(x) is not None and ctx.binding(x).kind == "loop":  # type: ignore[union-attr]
+        return None, ()
+    uses_numpy = ctx.imports.imports_any("numpy") and not ctx.imports.imports_any("statistics")
+    func, imports = p.spelled_qualified(ctx, "numpy.var" if uses_numpy else "statistics.pvariance")
+    return f"{p.operand_text(ctx, right.right)} * {func}({p.text(ctx, x)})", imports
+
+
 def matched(ctx: Context, node: ast.BinOp) -> tuple[str, Moment] | None:
     """('mean' | 'sum', second moment) when `node` is a one-pass variance or covariance."""
     left, right = node.left, node.right
@@ -189,7 +213,7 @@ class NaiveVariance(Rule):
         Example("import statistics as st\ndef spread(v):\n    m = st.mean(v)\n    return st.mean([a * a for a in v]) - m * m\n",
                 True, "st.pvariance(v)"),
         Example("def var(xs):\n    n = len(xs)\n    s = sum(xs)\n    sq = sum(v * v for v in xs)\n"
-                "    return (sq - s**2 / n) / (n - 1)\n", True),
+                "    return (sq - s**2 / n) / (n - 1)\n", True, "n * statistics.pvariance(xs)"),
         Example("def var(xs):\n    s = 0.0\n    s2 = 0.0\n    for v in xs:\n        s += v\n        s2 += v * v\n"
                 "    n = len(xs)\n    return s2 / n - (s / n) ** 2\n", True),
         Example("import numpy as np\ndef cov(x, y):\n    return np.mean(x * y) - np.mean(x) * np.mean(y)\n", True,
@@ -209,7 +233,7 @@ class NaiveVariance(Rule):
             return
         form, m2 = found
         covariance = m2[1][0][0] != m2[1][1][0]
-        rewrite, imports = two_pass_text(ctx, node.left, m2) if form == "mean" else (None, ())
+        rewrite, imports = two_pass_text(ctx, node.left, m2) if form == "mean" else scaled_variance_text(ctx, node, m2)
         fix = rewrite or "a two-pass form (subtract the mean first) or Welford's running update"
         what = "E[xy] - E[x]E[y]" if covariance else "the mean of squares minus the squared mean"
         yield Hit(node, f"{what} cancels, losing about 2*log10(|mean|/spread) digits (8 at mean/spread = 1e4) "

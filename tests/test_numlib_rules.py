@@ -65,6 +65,15 @@ def test_naive_variance_rewrite_recovers_the_shifted_example():
     assert fixed == pytest.approx(22.5, rel=1e-12)
 
 
+def test_textbook_sum_form_rewrite_gives_the_sample_variance():
+    # (4, 7, 13, 16) shifted by 1e9 has sample variance 30 (from memory); the one-pass sum form misses it
+    code = ("def f(xs):\n    n = len(xs)\n    s = sum(xs)\n    sq = sum(v * v for v in xs)\n"
+            "    return (sq - s**2 / n) / (n - 1)\n")
+    data = [float(v) for v in SHIFTED]
+    assert abs(run(code, "f", data) - 30.0) > 1.0
+    assert run(rewritten(code, "naive-variance"), "f", data) == pytest.approx(30.0, rel=1e-12)
+
+
 def test_covariance_rewrite_matches_reference():
     code = "import numpy as np\ndef f(x, y):\n    return np.mean(x * y) - np.mean(x) * np.mean(y)\n"
     y = SHIFTED[::-1].copy()

@@ -294,7 +294,7 @@ def constant_value(ctx: Context, node: ast.AST, depth: int = 6) -> float | None:
     if depth <= 0:
         return None
     if isinstance(node, ast.Name):
-        origin = ctx.origin(node)
+        origin: ast.expr | None = ctx.origin(node)
         if origin is node:
             origin = parameter_default(ctx, node)
         return None if origin is None or origin is node else constant_value(ctx, origin, depth - 1)
@@ -308,7 +308,7 @@ def constant_value(ctx: Context, node: ast.AST, depth: int = 6) -> float | None:
         inner = constant_value(ctx, node.args[0], depth - 1)
         if inner is None or inner < 0:
             return None
-        return inner ** 0.5 if ctx.family(node) == "sqrt" else inner ** (1 / 3)
+        return float(inner ** 0.5 if ctx.family(node) == "sqrt" else inner ** (1 / 3))
     if isinstance(node, ast.BinOp) and isinstance(node.op, (ast.Add, ast.Sub, ast.Mult, ast.Div, ast.Pow)):
         a, b = constant_value(ctx, node.left, depth - 1), constant_value(ctx, node.right, depth - 1)
         if a is None or b is None:

@@ -166,7 +166,8 @@ def scaled_variance_text(ctx: Context, node: ast.BinOp, m: Moment) -> tuple[str 
     right = node.right
     if k1 != k2 or not isinstance(right, ast.BinOp) or not counts(ctx, right.right, x):
         return None, ()
-    if isinstance(ctx.origin(x), ast.Name) and ctx.binding(x) is not None and ctx.binding(x).kind == "loop":  # type: ignore[union-attr]
+    binding = ctx.binding(x) if isinstance(x, ast.Name) else None
+    if binding is not None and binding.kind == "loop":
         return None, ()
     uses_numpy = ctx.imports.imports_any("numpy") and not ctx.imports.imports_any("statistics")
     func, imports = p.spelled_qualified(ctx, "numpy.var" if uses_numpy else "statistics.pvariance")

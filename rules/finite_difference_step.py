@@ -23,8 +23,9 @@ EPS = 2.0 ** -52
 _MODEL = {"forward": (1, 1), "central": (2, 1), "second": (2, 2)}
 #: best steps, quoted in messages
 _BEST = {"forward": "sqrt(eps) ~ 1.5e-8", "central": "cbrt(eps) ~ 6e-6", "second": "eps**0.25 ~ 1.2e-4"}
-#: flag a step whose modelled error is this many times the optimum (3 digits)
-_FACTOR = 1e3
+#: flag a step whose modelled error is this many times the optimum: 2 digits when rounding dominates (the
+#: step is too small, whatever f is), 3 digits when truncation does (that estimate assumes f'' ~ f')
+_FACTOR_SMALL, _FACTOR_LARGE = 1e2, 1e3
 
 
 def model_error(kind: str, h: float) -> float:
@@ -137,10 +138,10 @@ class FiniteDifferenceStep(Rule):
         if kind is None or h is None or h <= 0:
             return
         error, best = model_error(kind, h), optimal_error(kind)
-        if error < _FACTOR * best:
-            return
         order, deriv = _MODEL[kind]
         small = EPS / h ** deriv > h ** order
+        if error < (_FACTOR_SMALL if small else _FACTOR_LARGE) * best:
+            return
         left, most = max(0.0, -math.log10(error)), -math.log10(best)
         cause = (f"rounding error eps/h is about {EPS / h ** deriv:.0e}" if small
                  else f"truncation error grows like h**{order} = {h ** order:.0e}")

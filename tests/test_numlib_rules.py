@@ -290,3 +290,58 @@ def test_determinant_of_a_well_conditioned_matrix_can_be_tiny():
 ])
 def test_determinant_as_a_value_is_clean(code):
     assert not findings(code, "determinant-singularity-test")
+
+
+# -- shared predicates these rules added to auditor.patterns ----------------------------------
+
+def _context(code: str):
+    import ast
+
+    from auditor.rule import Context
+    from auditor.scan import walk
+
+    tree = ast.parse(code)
+    walk(tree, {})
+    return tree, Context(tree, "case.py", code)
+
+
+@pytest.mark.parametrize(("code", "qualname", "expected"), [
+    ("import scipy.linalg as sla\n", "scipy.linalg.solve", ("sla.solve", ())),
+    ("import numpy as np\n", "numpy.linalg.lstsq", ("np.linalg.lstsq", ())),
+    ("from numpy.linalg import lstsq\n", "numpy.linalg.lstsq", ("lstsq", ())),
+    ("import math\n", "numpy.linalg.solve", ("numpy.linalg.solve", ("import numpy.linalg",))),
+])
+def test_spelled_qualified(code, qualname, expected):
+    from auditor.patterns import spelled_qualified
+
+    _, ctx = _context(code)
+    assert spelled_qualified(ctx, qualname) == expected
+
+
+@pytest.mark.parametrize(("expr", "value"), [
+    ("np.finfo(float).eps", 2.0 ** -52),  # IEEE 754 binary64 machine epsilon (open standard)
+    ("np.sqrt(np.finfo(np.float64).eps)", 2.0 ** -26),
+    ("sys.float_info.epsilon ** (1 / 3)", (2.0 ** -52) ** (1 / 3)),
+    ("np.finfo(np.float32).eps", 2.0 ** -23),  # binary32 epsilon
+    ("10 ** -6 * 2", 2e-6),
+    ("x + 1e-8", None),
+])
+def test_constant_value(expr, value):
+    import ast
+
+    from auditor.patterns import constant_value
+
+    tree, ctx = _context(f"import sys\nimport numpy as np\nh = {expr}\n")
+    node = tree.body[-1].value
+    got = constant_value(ctx, node)
+    assert got == (pytest.approx(value, rel=1e-15) if value is not None else None)
+    assert isinstance(node, ast.expr)
+
+
+def test_gram_base_through_locals():
+    from auditor.patterns import gram_base
+
+    tree, ctx = _context("import numpy as np\ndef f(X):\n    Xt = np.transpose(X)\n    G = Xt @ X\n    return G\n")
+    ret = tree.body[1].body[-1].value
+    base = gram_base(ctx, ret)
+    assert base is not None and getattr(base, "id", None) == "X"

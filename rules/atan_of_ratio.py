@@ -1,0 +1,73 @@
+"""`atan(y / x)` loses the quadrant and divides by zero on the y axis.
+
+atan returns angles in (-pi/2, pi/2) only, so for x < 0 the angle of the point (x, y) comes out
+off by pi; at x = 0 the quotient raises ZeroDivisionError (math) or turns into inf with a
+warning (numpy), and a tiny x overflows it. The rounding error itself is small (atan is well
+conditioned), so this is mostly a wrong-answer bug, not a digits bug. atan2(y, x) takes the two
+coordinates apart: it knows the quadrant and never divides. Where x is known positive
+(a length, an absolute value, a square root) the two are equal and atan2 only removes the
+division; there the finding is a note and the rewrite is exact. Elsewhere the rewrite is not
+offered, because atan2 changes the value for x < 0: that is the fix only when a full-circle
+angle is meant, which the author has to confirm.
+"""
+from __future__ import annotations
+
+import ast
+from collections.abc import Iterator
+
+from auditor import Context, Example, Hit, Rule, Severity
+from auditor import algebra as alg
+from auditor import patterns as p
+from auditor.elementary import is_nonnegative, spelled_like, stable_origin
+
+#: the two-argument arctangent of each library
+_ATAN2 = {"math": "atan2", "numpy": "arctan2", "torch": "atan2", "jax.numpy": "arctan2", "cupy": "arctan2",
+          "mpmath": "atan2"}
+
+
+class AtanOfRatio(Rule):
+    id = "atan-of-ratio"
+    title = "atan of a quotient"
+    severity = Severity.WARNING
+    summary = "atan(y / x): wrong quadrant for x < 0 and a division by zero at x = 0; use atan2(y, x)"
+    node_types = (ast.Call,)
+    method = (
+        "the two-argument arctangent atan2 (C99 and IEEE 754-2008 atan2; ISO C 7.12.4.4), common practice for "
+        "polar angles and phases"
+    )
+    rewrite_template = "math.atan2({y}, {x})"
+    examples = (
+        Example("import math\ndef phase(i, q):\n    return math.atan(q / i)\n", True, note="sign of i unknown: no rewrite"),
+        Example("import numpy as np\ndef tilt(dz, dx):\n    return np.arctan(dz / np.abs(dx))\n", True,
+                "np.arctan2(dz, np.abs(dx))"),
+        Example("import math\ndef elevation(z, x, y):\n    r = math.hypot(x, y)\n    return math.atan(z / r)\n", True,
+                "math.atan2(z, r)"),
+        Example("import math\ndef phase(i, q):\n    return math.atan2(q, i)\n", False),
+        Example("import math\ndef acot(x):\n    return math.atan(1 / x)\n", False, note="arccot: a constant numerator"),
+        Example("import math\ndef half(x):\n    return math.atan(x / 2)\n", False, note="constant denominator"),
+    )
+
+    def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        if not ctx.is_call(node, "atan"):
+            return
+        arg = p.single_arg(node)
+        if arg is None:
+            return
+        ratio = ctx.origin(arg)
+        if not (isinstance(ratio, ast.BinOp) and isinstance(ratio.op, ast.Div)):
+            return
+        y, x = ratio.left, ratio.right
+        if not p.has_free_names(y) or not p.has_free_names(x):
+            return
+        module = p.callee_module(ctx, node) or "math"
+        if not is_nonnegative(ctx, x):
+            yield Hit(node, "atan(y / x) is off by pi when x < 0 and divides by zero at x = 0; use atan2(y, x) "
+                      "if the angle of the point (x, y) is meant")
+            return
+        rewrite, imports = None, ()
+        if module in _ATAN2 and stable_origin(ctx, ratio, node):
+            func, imports = spelled_like(ctx, module, _ATAN2[module])
+            rewrite = alg.in_place(alg.call(func, y, x))
+        yield Hit(node, f"x is never negative here, so {rewrite or 'atan2(y, x)'} gives the same angle without the "
+                  "division that fails at x = 0 and overflows for tiny x", severity=Severity.NOTE,
+                  rewrite=rewrite, imports=imports)

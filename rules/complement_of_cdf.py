@@ -1,0 +1,161 @@
+"""`1 - F(x)` for a distribution function F throws away the upper tail.
+
+In the upper tail F(x) is 1 minus a small probability, and doubles near 1 are spaced 1.1e-16
+apart: the complement keeps only the digits of the tail probability above that spacing. For the
+standard normal, 1 - cdf(5) keeps about nine digits, and beyond 8.3 the cdf rounds to 1 and the
+"probability" is 0 (the true value is 5e-17 and falls fast). p-values, false-alarm rates and
+reliability figures live exactly there. Every library that offers the cdf offers its complement
+computed directly: the survival function `.sf` of scipy.stats distributions, erfc for erf,
+gammaincc for gammainc, the `...c` twins of scipy.special's cdfs, and ndtr(-x) for ndtr(x).
+`1 + erf(x)` is the same loss in the lower tail (x -> -inf) and equals erfc(-x).
+"""
+from __future__ import annotations
+
+import ast
+from collections.abc import Iterator
+
+from auditor import Context, Example, Hit, Rule, Severity
+from auditor import algebra as alg
+from auditor import patterns as p
+from auditor.elementary import difference_operands, spelled_like, stable_origin
+
+#: scipy.special distribution functions and their complements
+_TWINS = {"gammainc": "gammaincc", "betainc": "betaincc", "chdtr": "chdtrc", "pdtr": "pdtrc", "bdtr": "bdtrc",
+          "fdtr": "fdtrc", "gdtr": "gdtrc", "nbdtr": "nbdtrc", "erf": "erfc"}
+_TWINS.update({v: k for k, v in list(_TWINS.items())})
+#: symmetric distributions: the complement is the cdf at the mirrored argument (which argument)
+_MIRRORED = {"ndtr": 0, "stdtr": 1}
+_HAS_ERFC = ("math", "scipy.special", "mpmath", "torch", "torch.special", "jax.scipy.special")
+
+
+def is_stats_distribution(ctx: Context, receiver: ast.expr) -> bool:
+    """`norm`, `stats.gamma`, a frozen `stats.norm(0, 2)`, or a local holding one."""
+    for candidate in (receiver, ctx.origin(receiver)):
+        if isinstance(candidate, ast.Call):
+            candidate = candidate.func
+        if (ctx.qualname(candidate) or "").startswith("scipy.stats."):
+            return True
+    return False
+
+
+def complement(ctx: Context, value: ast.expr) -> tuple[ast.expr, tuple[str, ...]] | None:
+    """The directly computed complement 1 - value, when value is a known distribution function."""
+    if not isinstance(value, ast.Call):
+        return _half_erf(ctx, value)
+    func = value.func
+    if isinstance(func, ast.Attribute) and func.attr == "cdf" and is_stats_distribution(ctx, func.value):
+        return ast.Call(ast.Attribute(func.value, "sf"), value.args, value.keywords), ()
+    family, module = ctx.family(value), p.callee_module(ctx, value) or ""
+    if family in ("erf", "erfc") and module in _HAS_ERFC and p.single_arg(value) is not None:
+        name, imports = spelled_like(ctx, module, _TWINS[family])
+        return alg.call(name, value.args[0]), imports
+    if module != "scipy.special" or value.keywords or any(isinstance(a, ast.Starred) for a in value.args):
+        return None
+    if family in _TWINS:
+        name, imports = spelled_like(ctx, module, _TWINS[family])
+        return alg.call(name, *value.args), imports
+    if family in _MIRRORED and len(value.args) == _MIRRORED[family] + 1:
+        args = list(value.args)
+        args[-1] = alg.neg(args[-1])
+        return ast.Call(value.func, args, []), ()
+    return None
+
+
+def _half_erf(ctx: Context, value: ast.expr) -> tuple[ast.expr, tuple[str, ...]] | None:
+    """0.5 * erfc(z) for the normal cdf written as 0.5 * (1 + erf(z)) or (1 + erf(z)) / 2."""
+    if not isinstance(value, ast.BinOp):
+        return None
+    if isinstance(value.op, ast.Mult) and p.is_number(value.left, 0.5):
+        half, inner = value.left, value.right
+    elif isinstance(value.op, ast.Mult) and p.is_number(value.right, 0.5):
+        half, inner = value.right, value.left
+    elif isinstance(value.op, ast.Div) and p.is_number(value.right, 2):
+        half, inner = alg.num(0.5), value.left
+    else:
+        return None
+    erf = one_plus_erf(ctx, inner)
+    if erf is None:
+        return None
+    module = p.callee_module(ctx, erf) or "math"
+    name, imports = spelled_like(ctx, module, "erfc")
+    return alg.binop(half, ast.Mult(), alg.call(name, erf.args[0])), imports
+
+
+def one_plus_erf(ctx: Context, node: ast.expr) -> ast.Call | None:
+    """The erf call of `1 + erf(z)` or `erf(z) + 1`, else None."""
+    terms = alg.signed_terms(node)
+    if len(terms) != 2 or any(s < 0 for _, s in terms):
+        return None
+    (a, _), (b, _) = terms
+    call = b if p.is_one(a) else a if p.is_one(b) else None
+    if isinstance(call, ast.Call) and ctx.family(call) == "erf" and p.single_arg(call) is not None \
+            and (p.callee_module(ctx, call) or "") in _HAS_ERFC:
+        return call
+    return None
+
+
+class ComplementOfCdf(Rule):
+    id = "complement-of-cdf"
+    title = "complement of a distribution function"
+    severity = Severity.WARNING
+    summary = "1 - cdf(x): the upper tail rounds away; use the survival function (sf, erfc, ...)"
+    node_types = (ast.BinOp, ast.AugAssign)
+    method = (
+        "survival functions and complementary error functions evaluated directly, as in W. J. Cody, Rational "
+        "Chebyshev approximations for the error function, Math. Comp. 23, 1969, and the scipy.stats `sf` "
+        "methods; complement identities from Abramowitz & Stegun 7.1.2 and 26.2.5 (from memory)"
+    )
+    rewrite_template = "{dist}.sf({x})"
+    examples = (
+        Example("from scipy.stats import norm\ndef p_value(z):\n    return 1 - norm.cdf(z)\n", True, "norm.sf(z)",
+                {"z": 7.0}),
+        Example("from scipy import stats\ndef tail(x, k):\n    d = stats.gamma(k, scale=2.0)\n    p = d.cdf(x)\n"
+                "    return 1.0 - p\n", True, "d.sf(x)"),
+        Example("import scipy.special as sc\ndef miss(z):\n    return 1.0 - sc.ndtr(z)\n", True, "sc.ndtr(-z)"),
+        Example("import math\ndef q(z):\n    return 1 - 0.5 * (1 + math.erf(z / math.sqrt(2)))\n", True,
+                "0.5 * math.erfc(z / math.sqrt(2))"),
+        Example("from math import erf\ndef lower(z):\n    return 0.5 * (1.0 + erf(z))\n", True, "math.erfc(-z)"),
+        Example("from scipy.special import gammainc\ndef upper(a, x):\n    return 1 - gammainc(a, x)\n", True,
+                "scipy.special.gammaincc(a, x)"),
+        Example("from scipy.stats import norm\ndef p_value(z):\n    return norm.sf(z)\n", False),
+        Example("from scipy.stats import norm\ndef f(z):\n    return 1 - norm.pdf(z)\n", False, note="a density, not a cdf"),
+        Example("import numpy as np\ndef f(x):\n    return 1 - np.exp(-x)\n", False, note="the exp-minus-one rule's pattern"),
+        Example("def f(model, x):\n    return 1 - model.cdf(x)\n", False, note="not known to be a scipy.stats distribution"),
+    )
+
+    def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        if isinstance(node, ast.BinOp) and isinstance(node.op, ast.Add):
+            yield from self._lower_tail(node, ctx)
+            return
+        ops = difference_operands(ctx, node)
+        if ops is None or not p.is_one(ops.left_written if not ops.aug else ops.left):
+            return
+        found = complement(ctx, ops.right)
+        if found is None:
+            return
+        rewrite, imports = None, ()
+        if not ops.aug and stable_origin(ctx, ops.right, node):
+            rewrite, imports = alg.in_place(found[0]), found[1]
+        yield Hit(node, "in the upper tail the cdf rounds to 1, so this keeps only the tail's digits above 1.1e-16 "
+                  f"(about nine at 5 sigma, none beyond 8.3 sigma); use {rewrite or 'the survival function'}",
+                  rewrite=rewrite, imports=imports)
+
+    def _lower_tail(self, node: ast.BinOp, ctx: Context) -> Iterator[Hit]:
+        erf = one_plus_erf(ctx, node)
+        if erf is None or self._inside_complement(node, ctx):
+            return
+        module = p.callee_module(ctx, erf) or "math"
+        name, imports = spelled_like(ctx, module, "erfc")
+        rewrite = alg.in_place(alg.call(name, alg.neg(erf.args[0])))
+        yield Hit(node, f"erf(z) rounds to -1 in the lower tail, so 1 + erf(z) keeps only the digits above 1.1e-16 "
+                  f"(none below z = -5.9); use {rewrite}", rewrite=rewrite, imports=imports)
+
+    @staticmethod
+    def _inside_complement(node: ast.AST, ctx: Context) -> bool:
+        """`1 - 0.5 * (1 + erf(z))`: the outer complement is the finding; do not report the inner sum too."""
+        for anc in ctx.ancestors(node):
+            if isinstance(anc, ast.BinOp) and isinstance(anc.op, ast.Sub):
+                return p.is_one(anc.left)
+            if not (isinstance(anc, ast.BinOp) and isinstance(anc.op, (ast.Mult, ast.Div))):
+                return False
+        return False

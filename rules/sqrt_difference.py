@@ -1,0 +1,94 @@
+"""`sqrt(a) - sqrt(b)` with nearly equal a and b cancels.
+
+When a and b agree in their leading digits so do their square roots, and the subtraction
+throws those digits away: sqrt(x + 1) - sqrt(x) keeps about 16 - log10(x) digits and returns 0
+for x above 1e16 (x + 1 rounds to x). The same happens to sqrt(1 + t) - 1 for small t and to
+sqrt(x*x + c) - x for large x. Multiplying by the conjugate gives the same value with no
+subtraction of nearly equal numbers: (a - b) / (sqrt(a) + sqrt(b)), and a - b is usually a
+simple expression (1, t, c) that is formed exactly.
+"""
+from __future__ import annotations
+
+import ast
+from collections.abc import Iterator
+
+from auditor import Context, Example, Hit, Rule, Severity
+from auditor import algebra as alg
+from auditor import patterns as p
+from auditor.elementary import difference_operands, is_discriminant, root_sum, sqrt_argument, stable_origin
+
+
+def squared_value(ctx: Context, side: ast.expr) -> tuple[ast.expr, bool] | None:
+    """(what the side squares to, True when it is a real square root) for sqrt(a) and the literal 1."""
+    arg = sqrt_argument(ctx, side)
+    if arg is not None:
+        return ctx.origin(arg), True
+    if p.is_one(side):
+        return ast.Constant(1), False
+    return None
+
+
+class SqrtDifference(Rule):
+    id = "sqrt-difference"
+    title = "difference of nearly equal square roots"
+    severity = Severity.WARNING
+    summary = "sqrt(a) - sqrt(b) with nearly equal a and b: use (a - b) / (sqrt(a) + sqrt(b))"
+    node_types = (ast.BinOp,)
+    method = (
+        "rationalising by the conjugate, sqrt(a) - sqrt(b) = (a - b)/(sqrt(a) + sqrt(b)); D. Goldberg, What Every "
+        "Computer Scientist Should Know About Floating-Point Arithmetic, ACM Computing Surveys 23(1), 1991, "
+        "section 1.4 on rewriting to avoid cancellation (from memory)"
+    )
+    rewrite_template = "({a} - {b}) / (math.sqrt({a}) + math.sqrt({b}))"
+    examples = (
+        Example("import math\ndef gap(x):\n    return math.sqrt(x + 1) - math.sqrt(x)\n", True,
+                "1 / (math.sqrt(x + 1) + math.sqrt(x))", {"x": 1e12}),
+        Example("import numpy as np\ndef f(t):\n    return np.sqrt(1.0 + t) - 1.0\n", True, "t / (np.sqrt(1.0 + t) + 1.0)"),
+        Example("from math import sqrt as root\ndef lift(v, c):\n    return root(v * v + c) - v\n", True,
+                "c / (root(v * v + c) + v)"),
+        Example("import math\ndef f(k, t, d):\n    hot = math.sqrt(k * (t + d))\n    cold = math.sqrt(k * t)\n"
+                "    return hot - cold\n", True, "k * d / (hot + cold)"),
+        Example("import math\ndef f(a, b):\n    return math.sqrt(a) - math.sqrt(b)\n", False,
+                note="independent inputs: nothing says they are close"),
+        Example("import math\ndef f(x):\n    return 1 / (math.sqrt(x + 1) + math.sqrt(x))\n", False),
+        Example("import math\ndef root(a, b, c):\n    return (-b + math.sqrt(b * b - 4 * a * c)) / (2 * a)\n", False,
+                note="the quadratic-roots rule's pattern"),
+    )
+
+    def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        ops = difference_operands(ctx, node)
+        if ops is None or ops.aug:
+            return
+        found = self._conjugate_numerator(ctx, ops.left, ops.right, node)
+        if found is None:
+            return
+        numerator, severity, values = found
+        rewrite = None
+        if all(stable_origin(ctx, v, node) for v in values):
+            denominator = alg.binop(ops.left_written, ast.Add(), ops.right_written)
+            rewrite = alg.in_place(alg.binop(numerator, ast.Div(), denominator))
+        fix = rewrite or "(a - b) / (sqrt(a) + sqrt(b))"
+        yield Hit(node, "the two square roots agree in their leading digits and the subtraction discards them "
+                  f"(sqrt(x + 1) - sqrt(x) is 0 for x above 1e16); use {fix}", severity=severity, rewrite=rewrite)
+
+    @staticmethod
+    def _conjugate_numerator(ctx: Context, left: ast.expr, right: ast.expr,
+                             node: ast.AST) -> tuple[ast.expr, Severity, list[ast.expr]] | None:
+        """(left**2 - right**2 simplified, severity, the values it copies), or None when not this pattern."""
+        sl, sr = squared_value(ctx, left), squared_value(ctx, right)
+        if sl is not None and sr is not None and (sl[1] or sr[1]):
+            (a, _), (b, _) = sl, sr
+            if p.same_expr(a, b) or not (p.has_free_names(a) or p.has_free_names(b)):
+                return None
+            literal_one = not (sl[1] and sr[1])
+            if not literal_one and not (p.names_in(a) & p.names_in(b)):
+                return None  # independent radicands: nothing says they are close
+            numerator = alg.difference(a, b)
+            one_plus = any(p.is_one(t) for t, _ in alg.signed_terms(a if sl[1] else b))
+            severity = Severity.NOTE if literal_one and not one_plus else Severity.WARNING
+            return numerator, severity, [a, b]
+        shape = root_sum(ctx, node)
+        if shape is None or shape.other_sign == shape.root_sign or is_discriminant(shape):
+            return None
+        rest = alg.build_sum([(t, s * shape.root_sign) for t, s in shape.rest])
+        return rest, Severity.WARNING, [shape.radicand]

@@ -1,0 +1,114 @@
+"""`x*x - y*y` rounds both squares before it subtracts them.
+
+Each square carries a rounding error relative to its own size, x**2; when x and y are close the
+difference is far smaller than the squares and those errors dominate it: with y = x*(1 - 1e-8)
+about eight digits are lost. `1 - x*x` near |x| = 1 is the same loss. The factored form
+(x - y)*(x + y) subtracts the inputs themselves, which is exact when they are within a factor of
+two of each other (Sterbenz), so the result is accurate to a few units in the last place.
+For `1 - cos(t)**2` the identity sin(t)**2 is better still.
+"""
+from __future__ import annotations
+
+import ast
+from collections.abc import Iterator
+
+from auditor import Context, Example, Hit, Rule, Severity
+from auditor import algebra as alg
+from auditor import patterns as p
+from auditor.elementary import difference_operands, spelled_like, square_base, stable_origin
+
+#: 1 - cos(t)**2 = sin(t)**2 and 1 - sin(t)**2 = cos(t)**2
+_PYTHAGORAS = {"cos": "sin", "sin": "cos"}
+
+
+def base_of(ctx: Context, side: ast.expr, written: ast.expr) -> ast.expr | None:
+    """The squared base of one side (the literal 1 counts as 1**2); the written form wins."""
+    if p.is_one(written):
+        return written
+    if p.is_one(side):
+        return ast.Constant(1)
+    return square_base(ctx, written) or square_base(ctx, side)
+
+
+def pythagoras(ctx: Context, x: ast.expr, y: ast.expr) -> tuple[ast.expr, tuple[str, ...]] | None:
+    """`sin(t)**2` for 1 - cos(t)**2 (and kin), negated for cos(t)**2 - 1."""
+    for one, trig, sign in ((x, y, 1), (y, x, -1)):
+        family = ctx.family(trig) if isinstance(trig, ast.Call) else None
+        if p.is_one(one) and family in _PYTHAGORAS and p.single_arg(trig) is not None:
+            module = p.callee_module(ctx, trig) or "math"
+            func, imports = spelled_like(ctx, module, _PYTHAGORAS[family])
+            square = alg.binop(alg.call(func, p.single_arg(trig)), ast.Pow(), alg.num(2))  # type: ignore[arg-type]
+            return (square if sign > 0 else alg.neg(square)), imports
+    return None
+
+
+def from_reduction(ctx: Context, base: ast.expr) -> bool:
+    """A mean or a sum: E[x^2] - E[x]^2 belongs to the variance rule."""
+    origin = ctx.origin(base)
+    return isinstance(origin, ast.Call) and ctx.family(origin) in ("mean", "sum", "average", "var", "std")
+
+
+def value_names(ctx: Context, expr: ast.expr) -> set[str]:
+    """Names an expression reads, directly or through the local it names."""
+    return p.names_in(expr) | p.names_in(ctx.origin(expr))
+
+
+class SquareDifference(Rule):
+    id = "square-difference"
+    title = "difference of two squares"
+    severity = Severity.NOTE
+    summary = "x*x - y*y: rounds the squares before cancelling; use (x - y)*(x + y)"
+    node_types = (ast.BinOp, ast.AugAssign)
+    method = (
+        "factoring x^2 - y^2 = (x - y)(x + y), with Sterbenz's lemma for the exact subtraction: D. Goldberg, What "
+        "Every Computer Scientist Should Know About Floating-Point Arithmetic, ACM Computing Surveys 23(1), 1991, "
+        "section 1.4 (from memory)"
+    )
+    rewrite_template = "({x} - {y}) * ({x} + {y})"
+    examples = (
+        Example("def heat(t_cold, dt):\n    t_hot = t_cold + dt\n    return t_hot**2 - t_cold**2\n", True,
+                "dt * (t_hot + t_cold)", {"t_cold": 0.1, "dt": 1e-9}),
+        Example("def ring(r1, r2):\n    return r1 * r1 - r2 * r2\n", True, "(r1 - r2) * (r1 + r2)"),
+        Example("import math\ndef lorentz(v, c):\n    return math.sqrt(1.0 - (v / c) ** 2)\n", True,
+                "(1.0 - v / c) * (1.0 + v / c)"),
+        Example("import numpy as np\ndef s2(t):\n    return 1 - np.cos(t) ** 2\n", True, "np.sin(t) ** 2"),
+        Example("def ring(r1, r2):\n    return (r1 - r2) * (r1 + r2)\n", False),
+        Example("def f(b, a, c):\n    return b * b - 4 * a * c\n", False, note="a discriminant, not two squares"),
+        Example("import numpy as np\ndef var(x):\n    return np.mean(x**2) - np.mean(x)**2\n", False,
+                note="the naive-variance rule's pattern"),
+        Example("def f(n, m):\n    return n**2 - m**2\n", True, note="names alone do not say integer"),
+        Example("def f(xs):\n    return len(xs) ** 2 - 1\n", False, note="integer arithmetic is exact"),
+    )
+
+    def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        ops = difference_operands(ctx, node)
+        if ops is None:
+            return
+        x, y = base_of(ctx, ops.left, ops.left_written), base_of(ctx, ops.right, ops.right_written)
+        if x is None or y is None or p.same_expr(x, y) or not (p.has_free_names(x) or p.has_free_names(y)):
+            return
+        if (p.is_integer_valued(ctx, x) and p.is_integer_valued(ctx, y)) or from_reduction(ctx, x) or from_reduction(ctx, y):
+            return
+        correlated = bool(value_names(ctx, x) & value_names(ctx, y))
+        rewrite, imports = None, ()
+        if not ops.aug and stable_origin(ctx, x, node) and stable_origin(ctx, y, node):
+            trig = pythagoras(ctx, x, y)
+            if trig is not None:
+                rewrite, imports = alg.in_place(trig[0]), trig[1]
+            else:
+                total = alg.build_sum([(x, 1), (y, 1)])
+                rewrite = alg.in_place(alg.binop(self._difference(ctx, x, y, node), ast.Mult(), total))
+        fix = rewrite or "(x - y)*(x + y)"
+        yield Hit(node, f"both squares are rounded before they cancel, so when x and y are close (to 1e-8) about "
+                  f"half the digits are lost; use {fix}", severity=Severity.WARNING if correlated else None,
+                  rewrite=rewrite, imports=imports)
+
+    @staticmethod
+    def _difference(ctx: Context, x: ast.expr, y: ast.expr, node: ast.AST) -> ast.expr:
+        """x - y, taken from the locals' values when that cancels terms (t_hot = t_cold + dt gives dt)."""
+        ox, oy = ctx.origin(x), ctx.origin(y)
+        if (ox is not x or oy is not y) and stable_origin(ctx, ox, node) and stable_origin(ctx, oy, node):
+            found = alg.difference(ox, oy)
+            if len(alg.signed_terms(found)) < len(alg.signed_terms(ox)) + len(alg.signed_terms(oy)):
+                return found
+        return alg.difference(x, y)

@@ -1,0 +1,258 @@
+"""A difference of two correlated quantities that can be nearly equal loses their shared digits.
+
+When a and b agree in their first k digits, a - b has only the remaining digits of each, and
+every earlier rounding error in a or b is now relative to a much smaller result. This rule
+finds the general shapes where the operands are computed from the same variables and meet:
+f(u) - f(v) for one elementary function with related arguments (exp(a) - exp(b),
+log(x + 1) - log(x), cos(a) - cos(b)); a function minus its own leading Taylor term (x - sin(x),
+tanh(x) - x, cosh(x) - 1, tan(x) - sin(x)); 1/a - 1/b with related a and b; and a sum minus one
+of its own terms ((a + b) - a, x*(1 + d) - x), which returns only the digits of b (or x*d) that
+survived the addition. Each has an equal form that forms the small quantity first: sum-to-product
+identities, exp(b)*expm1(a - b), log(a/b), (b - a)/(a*b), or the term itself.
+
+Left alone on purpose: differences of independent inputs (a - b from two parameters), centring
+against a mean, integer, index, string and time arithmetic, difference quotients (the
+finite-difference rule's), error-free transformations (Kahan, Fast2Sum) and convergence tests,
+and the forms other rules own (exp(x) - 1, 1 - cos(x), sqrt differences, squares, variance,
+1 - cdf).
+"""
+from __future__ import annotations
+
+import ast
+from collections.abc import Iterator
+
+from auditor import Context, Example, Hit, Rule, Severity
+from auditor import algebra as alg
+from auditor import patterns as p
+from auditor.elementary import Operands, difference_operands, spelled_like, stable_origin
+
+#: elementary functions whose difference at related arguments is this rule's (sqrt is sqrt-difference's)
+_SMOOTH = frozenset({"exp", "exp2", "log", "log10", "log2", "log1p", "expm1", "sin", "cos", "tan", "sinh", "cosh",
+                     "tanh", "asin", "acos", "atan", "asinh", "acosh", "atanh", "erf", "erfc", "gamma", "lgamma",
+                     "gammaln", "cbrt"})
+#: functions equal to x + O(x**3) near 0: f(x) - x keeps only rounding error for small x
+_LEADING = frozenset({"sin", "tan", "sinh", "tanh", "asin", "atan", "asinh", "atanh", "log1p", "expm1"})
+_HAS_EXPM1 = ("math", "numpy", "scipy.special", "mpmath", "torch", "jax.numpy", "cupy")
+
+Found = tuple[str, Severity | None, ast.expr | None, tuple[str, ...], list[ast.expr]]
+
+
+def _half(node: ast.expr) -> ast.expr:
+    return alg.binop(node, ast.Div(), alg.num(2))
+
+
+def product_form(ctx: Context, call: ast.Call, family: str, a: ast.expr, b: ast.expr) -> tuple[ast.expr | None, tuple[str, ...]]:
+    """An equal form of f(a) - f(b) that forms a - b first (sum-to-product, expm1, log of a ratio)."""
+    module = p.callee_module(ctx, call) or "math"
+    spell = lambda name: spelled_like(ctx, module, name)  # noqa: E731
+    if family == "exp":
+        if p.same_expr(b, alg.neg(a)) or p.same_expr(a, alg.neg(b)):
+            (sinh, imports), x = spell("sinh"), (a if p.same_expr(b, alg.neg(a)) else b)
+            sign = 2 if x is a else -2
+            return alg.binop(alg.num(sign), ast.Mult(), alg.call(sinh, x)), imports
+        if module not in _HAS_EXPM1:
+            return None, ()
+        (exp, i1), (expm1, i2) = spell("exp"), spell("expm1")
+        return alg.binop(alg.call(exp, b), ast.Mult(), alg.call(expm1, alg.difference(a, b))), i1 + i2
+    if family in ("log", "log2", "log10"):
+        name, imports = spell(ctx.qualname(call.func).rpartition(".")[2])  # type: ignore[union-attr]
+        return alg.call(name, alg.binop(a, ast.Div(), b)), imports
+    total, diff = _half(alg.build_sum(alg.combine([(a, 1), (b, 1)]))), _half(alg.difference(a, b))
+    pairs = {"sin": (2, "cos", "sin"), "cos": (-2, "sin", "sin"), "sinh": (2, "cosh", "sinh"), "cosh": (2, "sinh", "sinh")}
+    if family in pairs:
+        k, f, g = pairs[family]
+        (fn, i1), (gn, i2) = spell(f), spell(g)
+        return alg.build_product([alg.num(k), alg.call(fn, total), alg.call(gn, diff)]), i1 + i2
+    if family == "tan":
+        (sin, i1), (cos, i2) = spell("sin"), spell("cos")
+        den = alg.binop(alg.call(cos, a), ast.Mult(), alg.call(cos, b))
+        return alg.binop(alg.call(sin, alg.difference(a, b)), ast.Div(), den), i1 + i2
+    return None, ()
+
+
+def is_difference_quotient(ctx: Context, node: ast.AST) -> bool:
+    """(f(x + h) - f(x)) / h, directly or through a local: the finite-difference rule's pattern."""
+    parent = ctx.parent(node)
+    if isinstance(parent, ast.BinOp) and isinstance(parent.op, ast.Div) and parent.left is node:
+        return p.has_free_names(parent.right)
+    if isinstance(parent, ast.Assign) and len(parent.targets) == 1 and isinstance(parent.targets[0], ast.Name):
+        name = parent.targets[0].id
+        return any(isinstance(n, ast.BinOp) and isinstance(n.op, ast.Div) and isinstance(n.left, ast.Name)
+                   and n.left.id == name and n.lineno > parent.lineno for n in ast.walk(ctx.scope(node)))
+    return False
+
+
+def in_test(ctx: Context, node: ast.AST) -> bool:
+    """Inside a comparison (`abs(x_new - x) < tol`): a convergence test, harmless."""
+    for anc in ctx.ancestors(node):
+        if isinstance(anc, ast.Compare):
+            return True
+        if isinstance(anc, ast.stmt):
+            return False
+    return False
+
+
+class SubtractiveCancellation(Rule):
+    id = "subtractive-cancellation"
+    title = "difference of nearly equal correlated values"
+    severity = Severity.NOTE
+    summary = "a - b where a and b come from the same variables and can be nearly equal"
+    node_types = (ast.BinOp, ast.AugAssign)
+    method = (
+        "rearranging to form the small difference first (sum-to-product identities, expm1, log of a ratio); "
+        "N. J. Higham, Accuracy and Stability of Numerical Algorithms, 2nd ed., SIAM 2002, section 1.7 on "
+        "cancellation; D. Goldberg, What Every Computer Scientist Should Know About Floating-Point Arithmetic, "
+        "ACM Computing Surveys 23(1), 1991 (from memory)"
+    )
+    rewrite_template = "2 * math.cos(({a} + {b}) / 2) * math.sin(({a} - {b}) / 2)"
+    examples = (
+        Example("import math\ndef beat(w, dw, t):\n    return math.sin((w + dw) * t) - math.sin(w * t)\n", True,
+                "2 * math.cos(((w + dw) * t + w * t) / 2) * math.sin(dw * t / 2)", {"w": 1.0, "dw": 1e-9, "t": 1.0}),
+        Example("import numpy as np\ndef gain(x):\n    return np.log(x + 1) - np.log(x)\n", True, "np.log((x + 1) / x)"),
+        Example("import math\ndef odd(x):\n    return math.exp(x) - math.exp(-x)\n", True, "2 * math.sinh(x)"),
+        Example("def spacing(n):\n    return 1 / n - 1 / (n + 1.5)\n", True, "1.5 / (n * (n + 1.5))"),
+        Example("def excess(rho0, mu, b):\n    rho = rho0 * (1.0 + (mu * b) ** 2)\n    return (rho - rho0) / rho0\n", True,
+                "rho0 * (mu * b) ** 2"),
+        Example("import math\ndef remainder(x):\n    return x - math.sin(x)\n", True, note="no closed form: use a series"),
+        Example("import numpy as np\ndef centre(x):\n    return x - np.mean(x)\n", False, note="centring is stable practice"),
+        Example("def f(a, b):\n    return a - b\n", False, note="independent inputs"),
+        Example("import math\ndef slope(x, h):\n    return (math.exp(x + h) - math.exp(x)) / h\n", False,
+                note="a difference quotient: the finite-difference rule's"),
+        Example("def kahan(xs):\n    s = c = 0.0\n    for x in xs:\n        y = x - c\n        t = s + y\n"
+                "        c = (t - s) - y\n        s = t\n    return s\n", False, note="an error-free transformation"),
+    )
+
+    def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        ops = difference_operands(ctx, node)
+        if ops is None:
+            return
+        for matcher in (self._same_function, self._tan_sin, self._leading_term, self._reciprocals, self._absorbed):
+            found = matcher(ctx, node, ops)
+            if found is not None:
+                message, severity, form, imports, values = found
+                ok = form is not None and not ops.aug and all(stable_origin(ctx, v, node) for v in values)
+                rewrite = alg.in_place(form) if ok and form is not None else None
+                yield Hit(node, message.format(fix=rewrite or "a form that subtracts the small part first"),
+                          severity=severity, rewrite=rewrite, imports=imports if rewrite else ())
+                return
+
+    @staticmethod
+    def _same_function(ctx: Context, node: ast.AST, ops: Operands) -> Found | None:
+        left, right = ops.left, ops.right
+        if not (isinstance(left, ast.Call) and isinstance(right, ast.Call)):
+            return None
+        family = ctx.family(left)
+        if family not in _SMOOTH or ctx.family(right) != family:
+            return None
+        a, b = p.single_arg(left), p.single_arg(right)
+        if a is None or b is None or p.same_expr(a, b) or not (p.names_in(a) & p.names_in(b)):
+            return None
+        if is_difference_quotient(ctx, node):
+            return None
+        form, imports = product_form(ctx, left, family, a, b)
+        odd = family == "exp" and (p.same_expr(b, alg.neg(a)) or p.same_expr(a, alg.neg(b)))
+        message = (f"{family}(a) - {family}(b) at close arguments cancels the digits the two values share "
+                   "(all of them when a - b is below 1e-16 of a); use {fix}")
+        return message, Severity.WARNING if odd else None, form, imports, [a, b]
+
+    @staticmethod
+    def _leading_term(ctx: Context, node: ast.AST, ops: Operands) -> Found | None:
+        for call, other, sign in ((ops.left, ops.right, 1), (ops.right, ops.left, -1)):
+            family = ctx.family(call) if isinstance(call, ast.Call) else None
+            arg = p.single_arg(call)
+            if family is None or arg is None or not p.has_free_names(arg):
+                continue
+            assert isinstance(call, ast.Call)
+            module = p.callee_module(ctx, call) or "math"
+            if family in _LEADING and p.same_expr(other, arg) and not p.is_integer_valued(ctx, arg):
+                return (f"{family}(x) - x keeps only rounding error for small |x| (about 2*log10(1/|x|) digits lost: "
+                        "6 at 1e-3, all below 1e-8); evaluate a series for small |x| instead",
+                        Severity.WARNING, None, (), [arg])
+            if family == "cosh" and p.is_one(other):
+                sinh, imports = spelled_like(ctx, module, "sinh")
+                square = alg.binop(alg.call(sinh, _half(arg)), ast.Pow(), alg.num(2))
+                return ("cosh(x) rounds to 1 for |x| below about 1e-8, so cosh(x) - 1 returns 0 there and loses half "
+                        "its digits near 1e-4; use {fix}", Severity.WARNING,
+                        alg.binop(alg.num(2 * sign), ast.Mult(), square), imports, [arg])
+        return None
+
+    @staticmethod
+    def _tan_sin(ctx: Context, node: ast.AST, ops: Operands) -> Found | None:
+        """tan(x) - sin(x) = 2*tan(x)*sin(x/2)**2."""
+        l, r = ops.left, ops.right
+        if not (isinstance(l, ast.Call) and isinstance(r, ast.Call)) or {ctx.family(l), ctx.family(r)} != {"tan", "sin"}:
+            return None
+        x, y = p.single_arg(l), p.single_arg(r)
+        if x is None or y is None or not p.same_expr(x, y) or not p.has_free_names(x):
+            return None
+        tan_call = l if ctx.family(l) == "tan" else r
+        sin, imports = spelled_like(ctx, p.callee_module(ctx, tan_call) or "math", "sin")
+        square = alg.binop(alg.call(sin, _half(x)), ast.Pow(), alg.num(2))
+        form = alg.build_product([alg.num(2 if tan_call is l else -2), tan_call, square])
+        return ("tan(x) - sin(x) is about x**3/2 while both terms are about x, so about 2*log10(1/|x|) digits are "
+                "lost for small x; use {fix}", Severity.WARNING, form, imports, [x])
+
+    @staticmethod
+    def _reciprocals(ctx: Context, node: ast.AST, ops: Operands) -> Found | None:
+        l, r = ops.left, ops.right
+        if not all(isinstance(s, ast.BinOp) and isinstance(s.op, ast.Div) for s in (l, r)):
+            return None
+        assert isinstance(l, ast.BinOp) and isinstance(r, ast.BinOp)
+        n, d1, d2 = l.left, l.right, r.right
+        if not p.same_expr(n, r.left) or p.same_expr(d1, d2) or not (p.names_in(d1) & p.names_in(d2)):
+            return None
+        if (p.is_integer_valued(ctx, d1) and p.is_integer_valued(ctx, d2)) or is_difference_quotient(ctx, node):
+            return None
+        diff = alg.difference(d2, d1)
+        top = diff if p.is_one(n) else alg.binop(n, ast.Mult(), diff)
+        form = alg.binop(top, ast.Div(), alg.binop(d1, ast.Mult(), d2))
+        return ("1/a - 1/b at close a and b cancels; use {fix}, which forms the small b - a first",
+                None, form, (), [l, r])
+
+    @staticmethod
+    def _absorbed(ctx: Context, node: ast.AST, ops: Operands) -> Found | None:
+        for big, small, sign in ((ops.left, ops.right_written, 1), (ops.right, ops.left_written, -1)):
+            rest = absorbed_part(big, small)
+            if rest is None or in_test(ctx, node) or error_free(ctx, node, rest):
+                continue
+            if all(p.is_integer_valued(ctx, t) for t, _ in alg.signed_terms(big)):
+                continue
+            form = rest if sign > 0 else alg.neg(rest)
+            return ("(a + b) - a returns only the digits of b that survived the addition (none once |b| < 1e-16*|a|); "
+                    "use {fix} directly", None, form, (), [big])
+        return None
+
+
+def absorbed_part(big: ast.expr, small: ast.expr) -> ast.expr | None:
+    """b for big = small + b; x*d for big = x*(1 + d) with small = x; else None."""
+    terms = alg.signed_terms(big)
+    hit = next((i for i, (t, s) in enumerate(terms) if s > 0 and p.same_expr(t, small)), None)
+    if len(terms) >= 2 and hit is not None and p.has_free_names(small):
+        return alg.build_sum(terms[:hit] + terms[hit + 1:])
+    factors, wanted = alg.mult_factors(big), alg.mult_factors(small)
+    for i, f in enumerate(factors):
+        inner = alg.signed_terms(f)
+        one = next((j for j, (t, s) in enumerate(inner) if s > 0 and p.is_one(t)), None)
+        others = factors[:i] + factors[i + 1:]
+        if one is None or len(inner) < 2 or len(others) != len(wanted):
+            continue
+        if all(p.same_expr(a, b) for a, b in zip(sorted(others, key=ast.dump), sorted(wanted, key=ast.dump))):
+            return alg.build_product(others + [alg.build_sum(inner[:one] + inner[one + 1:])])
+    return None
+
+
+def error_free(ctx: Context, node: ast.AST, rest: ast.expr) -> bool:
+    """Kahan / Fast2Sum / the representable-step trick: the rounding error of a sum is recovered on purpose."""
+    parent = ctx.parent(node)
+    if isinstance(parent, ast.BinOp) and isinstance(parent.op, (ast.Sub, ast.Add)):
+        other = parent.right if parent.left is node else parent.left
+        if p.same_expr(other, rest):
+            return True
+    if isinstance(parent, ast.Assign) and len(parent.targets) == 1 and isinstance(parent.targets[0], ast.Name):
+        name = parent.targets[0].id
+        if isinstance(rest, ast.Name) and rest.id == name:
+            return True  # h = (x + h) - x: makes the step exactly representable
+        return any(isinstance(n, ast.BinOp) and isinstance(n.op, ast.Sub) and n.lineno >= parent.lineno
+                   and any(isinstance(s, ast.Name) and s.id == name for s in (n.left, n.right))
+                   and any(p.same_expr(s, rest) for s in (n.left, n.right)) for n in ast.walk(ctx.scope(node)))
+    return False

@@ -1,7 +1,7 @@
 """`auditor fix`: print the verified rewrites as a unified diff; with --write apply them in place.
 
-Only rewrites the dynamic pass verified are applied; unverified ones are listed with their
-reason. The diff goes to standard output (or --output), so it can be piped to `git apply`;
+Only rewrites the dynamic pass verified, for findings it measured unstable, are applied;
+the others are listed with their reason. The diff goes to standard output (or --output), so it can be piped to `git apply`;
 the listing and the summary go to standard error.
 
 Exit status: 0 when no finding at or above the fail level (--fail-on) is left in the code,
@@ -24,7 +24,7 @@ from pathlib import Path
 from typing import TextIO
 
 from auditor.config import Config
-from auditor.model import Finding, Report
+from auditor.model import Finding, Report, Verdict
 from auditor.rewrite import Edit, Outcome, apply_edits, parses
 from auditor.sources import STDIN, discover
 from auditor.splice import split_lines
@@ -43,7 +43,7 @@ class FilePlan:
     before: str  #: decoded text
     outcome: Outcome
     unverified: tuple[Finding, ...]  #: findings whose rewrite was not verified (listed, not applied)
-    fixed: tuple[Finding, ...]  #: findings whose verified rewrite is in `outcome.text`
+    fixed: tuple[Finding, ...]  #: findings whose rewrite is in `outcome.text`, in `outcome.applied` order
 
 
 def default_measure() -> Measure:
@@ -65,9 +65,25 @@ def edit_for(finding: Finding) -> Edit:
 
 
 def fixable(finding: Finding) -> bool:
-    """A verified rewrite in a plain Python file (notebook cells are not rewritten)."""
+    """A verified rewrite of a finding measured unstable, in a plain Python file.
+
+    Benign and ill-conditioned findings are left alone even with a verified rewrite: there is
+    nothing for the rewrite to win, and a rule that flags its own output cannot make a second
+    `fix` change the code again. Notebook cells are not rewritten.
+    """
+    m = finding.measurement
     return bool(finding.rewrite and finding.rewrite.verified and finding.cell is None
-                and not finding.path.endswith(".ipynb"))
+                and not finding.path.endswith(".ipynb") and (m is None or m.verdict is Verdict.UNSTABLE))
+
+
+def _not_applied_reason(finding: Finding) -> str:
+    assert finding.rewrite is not None
+    m = finding.measurement
+    if finding.rewrite.verified and m is not None and m.verdict is not Verdict.UNSTABLE:
+        return f"measured {m.verdict}: nothing for the rewrite to win"
+    if finding.cell is not None or finding.path.endswith(".ipynb"):
+        return "notebook cells are not rewritten"
+    return finding.rewrite.note or "the dynamic pass did not verify it"
 
 
 def read_python(location: str) -> tuple[bytes, str, str]:
@@ -85,15 +101,16 @@ def plan_file(path: str, location: str, findings: Sequence[Finding]) -> FilePlan
         return f"cannot read: {exc}"
     pairs = [(f, edit_for(f)) for f in findings if fixable(f)]
     outcome = apply_edits(text, [e for _, e in pairs])
-    done = {id(e) for e in outcome.applied} if outcome.changed else set()
-    fixed = tuple(f for f, e in pairs if id(e) in done)
+    by_edit = {id(e): f for f, e in pairs}
+    fixed = tuple(by_edit[id(e)] for e in outcome.applied) if outcome.changed else ()
     unverified = tuple(f for f in findings if f.rewrite and not fixable(f))
     return FilePlan(path, location, data, encoding, text, outcome, unverified, fixed)
 
 
 def unified_diff(path: str, before: str, after: str) -> str:
     """A `git apply`-compatible unified diff; marks a last line without a newline."""
-    lines = difflib.unified_diff(split_lines(before), split_lines(after), f"a/{path}", f"b/{path}")
+    old, new = (path, path) if path.startswith("/") else (f"a/{path}", f"b/{path}")
+    lines = difflib.unified_diff(split_lines(before), split_lines(after), old, new)
     out = []
     for line in lines:
         if not line.endswith(("\n", "\r")):
@@ -156,7 +173,7 @@ def _listing(plan: FilePlan) -> list[str]:
     lines = []
     for f in plan.unverified:
         assert f.rewrite is not None
-        why = f.rewrite.note or "the dynamic pass did not verify it"
+        why = _not_applied_reason(f)
         lines.append(f"{plan.path}:{f.span.line}:{f.span.column}: {f.rule}: not applied ({why}); suggested: "
                      f"{_one_line(f.rewrite.text)}")
     for s in plan.outcome.skipped:

@@ -15,7 +15,7 @@ from dataclasses import dataclass
 import libcst as cst
 
 from auditor.model import Span
-from auditor.splice import indent_variants, line_indent, line_starts, newline_of, offsets, splice
+from auditor.splice import LINE_BREAK, indent_variants, line_indent, line_starts, newline_of, offsets, splice
 
 
 @dataclass(frozen=True, slots=True)
@@ -136,11 +136,33 @@ def _locate(source: str, edits: Sequence[Edit], bound: dict[str, str], skipped: 
             why = "its span lies outside the file"
         elif edit.original is not None and source[where[0] : where[1]] != edit.original:
             why = "the source changed since it was measured"
+        elif _already_applied(source, *where, edit):
+            why = "already rewritten: the code around it is this rewrite"
         if why:
             skipped.append(Skipped(edit, why))
         else:
             out.append(_Placed(edit, *where))  # type: ignore[misc]
     return out
+
+
+def _squeeze(text: str) -> str:
+    return "".join(text.split())
+
+
+def _already_applied(source: str, start: int, end: int, edit: Edit) -> bool:
+    """True when the rewrite keeps the flagged text inside it (a guarded form such as
+    `A if cond else ORIGINAL`) and the code around the span already is that rewrite, so
+    applying it again would only nest it."""
+    if not edit.original:
+        return False
+    text, original = _squeeze(edit.text), _squeeze(edit.original)
+    at = text.find(original)
+    while at != -1:
+        before, after = text[:at], text[at + len(original) :]
+        if (before or after) and _squeeze(source[:start]).endswith(before) and _squeeze(source[end:]).startswith(after):
+            return True
+        at = text.find(original, at + 1)
+    return False
 
 
 def _without_overlaps(located: list[_Placed], skipped: list[Skipped]) -> list[_Placed]:
@@ -158,15 +180,29 @@ def _without_overlaps(located: list[_Placed], skipped: list[Skipped]) -> list[_P
 
 
 def _lay_out(source: str, p: _Placed, skipped: list[Skipped]) -> _Placed | None:
-    """The first layout of the replacement (re-indented to its place) with which the file parses."""
+    """The layout of the replacement (re-indented to its place) with which the file parses.
+
+    When both readings of a multi-line replacement parse (column 0 or absolute indentation),
+    the one whose continuation lines sit as deep as the replaced code's wins.
+    """
     indent, _ = line_indent(source, p.start)
-    complaint = "empty replacement"
+    complaint, fitting = "empty replacement", []
     for candidate in indent_variants(p.edit.text, indent):
         complaint = parses(splice(source, p.start, p.end, candidate)) or ""
         if not complaint:
-            return _Placed(p.edit, p.start, p.end, candidate)
-    skipped.append(Skipped(p.edit, f"the rewrite does not parse in place ({complaint})"))
-    return None
+            fitting.append(candidate)
+    if not fitting:
+        skipped.append(Skipped(p.edit, f"the rewrite does not parse in place ({complaint})"))
+        return None
+    depth = _continuation_depth(source[p.start : p.end])
+    best = next((c for c in fitting if depth is not None and _continuation_depth(c) == depth), fitting[0])
+    return _Placed(p.edit, p.start, p.end, best)
+
+
+def _continuation_depth(text: str) -> int | None:
+    """Least indentation of the non-blank lines after the first (None for one line)."""
+    rest = [ln for ln in LINE_BREAK.split(text)[1:] if ln.strip()]
+    return min((len(ln) - len(ln.lstrip(" \t")) for ln in rest), default=None)
 
 
 # -- imports ---------------------------------------------------------------------------------

@@ -317,3 +317,26 @@ def test_new_spans_locate_each_replacement_in_the_result():
             pieces.append("\r\n".join([lines[span.line - 1][span.column - 1 :], *lines[span.line : span.end_line - 1],
                                        lines[span.end_line - 1][: span.end_column - 1]]))
     assert pieces == ["math.fsum([a, -b])", "x = x + math.fsum(\r\n        b)", "a"]
+
+
+def test_absolute_indentation_matching_the_replaced_block_is_kept():
+    # Both readings parse here; the one as deep as the replaced loop body (8 spaces) wins.
+    src = "def tail(u, n):\n    total = term = 1.0\n    for k in range(1, n):\n        term *= -k / u\n        total += term\n    return total\n"
+    loop = "for k in range(1, n):\n        term *= -k / u\n        total += term"
+    replacement = ("for k in range(1, n):\n        nxt = term * (-k / u)\n        if abs(nxt) > abs(term):\n"
+                   "            break\n        term = nxt\n        total += term")
+    out = apply_edits(src, [edit(src, loop, replacement)])
+    assert "    for k in range(1, n):\n        nxt = term * (-k / u)\n        if abs(nxt) > abs(term):\n            break\n" in out.text
+
+
+def test_a_guarded_rewrite_already_in_place_is_not_nested_again():
+    # The stable quadratic root keeps the textbook form in the branch where it is safe; a rule
+    # that flags that branch again must not make a second fix wrap it once more.
+    guarded = "(2.0 * c / (-b - math.sqrt(d)) if b > 0 else (-b + math.sqrt(d)) / (2.0 * a))"
+    src = f"import math\n\ndef root(a, b, c, d):\n    return {guarded}\n"
+    inner = "(-b + math.sqrt(d)) / (2.0 * a)"
+    out = apply_edits(src, [edit(src, inner, guarded)])
+    assert out.text == src and not out.applied
+    assert out.skipped[0].reason.startswith("already rewritten")
+    first = "def root(a, b, c, d):\n    return (-b + math.sqrt(d)) / (2.0 * a)\n"
+    assert apply_edits(first, [edit(first, inner, guarded)]).applied  # the first time it applies

@@ -82,6 +82,8 @@ class ExplicitInverse(Rule):
         Example("import numpy as np\ndef covariance(H):\n    cov = np.linalg.inv(H)\n    return cov\n", False,
                 note="the inverse is the result"),
         Example("import numpy as np\ndef f(A, b):\n    return A @ b\n", False),
+        Example("import numpy as np\ndef residual(a):\n    a_inv = np.linalg.inv(a)\n    return a @ a_inv - np.eye(len(a))\n",
+                False, note="checking an inverse"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -96,6 +98,8 @@ class ExplicitInverse(Rule):
             if kind == "inv" and p.gram_base(ctx, call.args[0]) is not None:
                 return  # inv(A.T @ A) is least squares: the normal-equations rule reports it
             rhs = factors[1 - index]
+            if p.same_expr(rhs, call.args[0]) or p.same_expr(ctx.origin(rhs), ctx.origin(call.args[0])):
+                return  # A @ inv(A): checking the inverse itself, nothing to solve
             rewrite, imports = solve_text(ctx, kind, call, rhs, left=index == 0)
             yield self._hit(ctx, node, kind, factors[index], rewrite, imports)
             return

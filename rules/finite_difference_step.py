@@ -23,9 +23,9 @@ EPS = 2.0 ** -52
 _MODEL = {"forward": (1, 1), "central": (2, 1), "second": (2, 2)}
 #: best steps, quoted in messages
 _BEST = {"forward": "sqrt(eps) ~ 1.5e-8", "central": "cbrt(eps) ~ 6e-6", "second": "eps**0.25 ~ 1.2e-4"}
-#: flag a step whose modelled error is this many times the optimum: 2 digits when rounding dominates (the
+#: flag a step whose modelled error is this many times the optimum: 2.7 digits when rounding dominates (the
 #: step is too small, whatever f is), 3 digits when truncation does (that estimate assumes f'' ~ f')
-_FACTOR_SMALL, _FACTOR_LARGE = 1e2, 1e3
+_FACTOR_SMALL, _FACTOR_LARGE = 5e2, 1e3
 
 
 def model_error(kind: str, h: float) -> float:

@@ -94,6 +94,20 @@ def loop_names(loop: ast.For) -> set[str]:
     return names
 
 
+#: numeric functions that map numbers to numbers; any other library call in a term is array algebra
+_ELEMENTWISE = frozenset({
+    "exp", "expm1", "exp2", "log", "log1p", "log10", "log2", "sqrt", "cbrt", "sin", "cos", "tan", "asin", "acos",
+    "atan", "atan2", "sinh", "cosh", "tanh", "asinh", "acosh", "atanh", "hypot", "pow", "abs", "square", "erf",
+    "erfc", "gamma", "lgamma", "gammaln", "copysign", "sign", "float64", "double",
+})
+
+
+def array_algebra(ctx: Context, term: ast.expr) -> bool:
+    """`u += np.diag(...)`, `U += solve(...)`: a few matrix additions, not a long scalar sum."""
+    return any(isinstance(n, ast.Call) and ctx.family(n) is not None and ctx.family(n) not in _ELEMENTWISE
+               for n in ast.walk(term))
+
+
 def float_evident(ctx: Context, expr: ast.expr) -> bool:
     """True when an expression visibly computes in floating point."""
     for n in ast.walk(expr):
@@ -157,7 +171,8 @@ def wanted(ctx: Context, loop: ast.For, acc: Accumulation) -> bool:
             isinstance(init, ast.Constant) and isinstance(init.value, (str, bytes)):
         return False
     floaty = isinstance(init, ast.Constant) and isinstance(init.value, float) or float_evident(ctx, acc.term)
-    if not floaty or p.is_integer_valued(ctx, acc.term) or p.reduction(ctx, acc.term) is not None:
+    if not floaty or p.is_integer_valued(ctx, acc.term) or p.reduction(ctx, acc.term) is not None \
+            or array_algebra(ctx, acc.term):
         return False  # a sum of sums (`grand += math.fsum(row)`) has only one addition per row
     if not p.names_in(acc.term) & loop_names(loop):
         return False  # a fixed step: the step-accumulation rule's pattern

@@ -48,6 +48,16 @@ def stable_origin(ctx: Context, value: ast.expr, use: ast.AST) -> bool:
     return True
 
 
+def reads_variables(ctx: Context, expr: ast.AST) -> bool:
+    """True when `expr` reads a variable; imported names (`math.pi`, `np`) are constants, not variables."""
+    return any(isinstance(n, ast.Name) and ctx.qualname(n) is None for n in ast.walk(expr))
+
+
+def variables(ctx: Context, expr: ast.AST) -> set[str]:
+    """The variable names `expr` reads (imported module and function names left out)."""
+    return {n.id for n in ast.walk(expr) if isinstance(n, ast.Name) and ctx.qualname(n) is None}
+
+
 def square_base(ctx: Context, node: ast.AST) -> ast.expr | None:
     """x for `x**2`, `x*x`, `np.square(x)`, `pow(x, 2)`, `math.pow(x, 2)`; else None."""
     base = p.is_square(node)
@@ -126,7 +136,7 @@ def root_sum(ctx: Context, node: ast.AST) -> RootSum | None:
     for (root, rs), (other, os_) in (terms, terms[::-1]):
         call = ctx.origin(root)
         radicand = sqrt_argument(ctx, call)
-        if radicand is None or not p.has_free_names(other):
+        if radicand is None or not reads_variables(ctx, other):
             continue
         radicand = ctx.origin(radicand)
         parts = signed_terms(radicand)

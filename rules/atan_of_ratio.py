@@ -18,7 +18,7 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
-from auditor.elementary import is_nonnegative, spelled_like, stable_origin
+from auditor.elementary import is_nonnegative, reads_variables, spelled_like, stable_origin
 
 #: the two-argument arctangent of each library
 _ATAN2 = {"math": "atan2", "numpy": "arctan2", "torch": "atan2", "jax.numpy": "arctan2", "cupy": "arctan2",
@@ -57,7 +57,7 @@ class AtanOfRatio(Rule):
         if not (isinstance(ratio, ast.BinOp) and isinstance(ratio.op, ast.Div)):
             return
         y, x = ratio.left, ratio.right
-        if not p.has_free_names(y) or not p.has_free_names(x):
+        if not reads_variables(ctx, y) or not reads_variables(ctx, x):
             return
         module = p.callee_module(ctx, node) or "math"
         if not is_nonnegative(ctx, x):

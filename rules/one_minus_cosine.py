@@ -14,7 +14,7 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
-from auditor.elementary import difference_operands, spelled_like, stable_origin
+from auditor.elementary import difference_operands, reads_variables, spelled_like, stable_origin
 
 
 def half_angle(ctx: Context, call: ast.Call, arg: ast.expr, negate: bool) -> tuple[str, tuple[str, ...]]:
@@ -62,7 +62,7 @@ class OneMinusCosine(Rule):
             return
         assert isinstance(call, ast.Call)
         arg = p.single_arg(call)
-        if arg is None or not p.has_free_names(arg):
+        if arg is None or not reads_variables(ctx, arg):
             return
         rewrite, imports = None, ()
         if not ops.aug and stable_origin(ctx, call, written):

@@ -15,7 +15,9 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
-from auditor.elementary import difference_operands, is_discriminant, root_sum, sqrt_argument, stable_origin
+from auditor.elementary import (
+    difference_operands, is_discriminant, reads_variables, root_sum, sqrt_argument, stable_origin, variables,
+)
 
 
 def squared_value(ctx: Context, side: ast.expr) -> tuple[ast.expr, bool] | None:
@@ -78,10 +80,10 @@ class SqrtDifference(Rule):
         sl, sr = squared_value(ctx, left), squared_value(ctx, right)
         if sl is not None and sr is not None and (sl[1] or sr[1]):
             (a, _), (b, _) = sl, sr
-            if p.same_expr(a, b) or not (p.has_free_names(a) or p.has_free_names(b)):
+            if p.same_expr(a, b) or not (reads_variables(ctx, a) or reads_variables(ctx, b)):
                 return None
             literal_one = not (sl[1] and sr[1])
-            if not literal_one and not (p.names_in(a) & p.names_in(b)):
+            if not literal_one and not (variables(ctx, a) & variables(ctx, b)):
                 return None  # independent radicands: nothing says they are close
             numerator = alg.difference(a, b)
             one_plus = any(p.is_one(t) for t, _ in alg.signed_terms(a if sl[1] else b))

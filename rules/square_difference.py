@@ -15,7 +15,9 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
-from auditor.elementary import difference_operands, spelled_like, square_base, stable_origin
+from auditor.elementary import (
+    difference_operands, reads_variables, spelled_like, square_base, stable_origin, variables,
+)
 
 #: 1 - cos(t)**2 = sin(t)**2 and 1 - sin(t)**2 = cos(t)**2
 _PYTHAGORAS = {"cos": "sin", "sin": "cos"}
@@ -50,7 +52,7 @@ def from_reduction(ctx: Context, base: ast.expr) -> bool:
 
 def value_names(ctx: Context, expr: ast.expr) -> set[str]:
     """Names an expression reads, directly or through the local it names."""
-    return p.names_in(expr) | p.names_in(ctx.origin(expr))
+    return variables(ctx, expr) | variables(ctx, ctx.origin(expr))
 
 
 class SquareDifference(Rule):
@@ -85,7 +87,7 @@ class SquareDifference(Rule):
         if ops is None:
             return
         x, y = base_of(ctx, ops.left, ops.left_written), base_of(ctx, ops.right, ops.right_written)
-        if x is None or y is None or p.same_expr(x, y) or not (p.has_free_names(x) or p.has_free_names(y)):
+        if x is None or y is None or p.same_expr(x, y) or not (reads_variables(ctx, x) or reads_variables(ctx, y)):
             return
         if (p.is_integer_valued(ctx, x) and p.is_integer_valued(ctx, y)) or from_reduction(ctx, x) or from_reduction(ctx, y):
             return

@@ -24,7 +24,9 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
-from auditor.elementary import Operands, difference_operands, spelled_like, stable_origin
+from auditor.elementary import (
+    Operands, difference_operands, reads_variables, spelled_like, stable_origin, variables,
+)
 
 #: elementary functions whose difference at related arguments is this rule's (sqrt is sqrt-difference's)
 _SMOOTH = frozenset({"exp", "exp2", "log", "log10", "log2", "log1p", "expm1", "sin", "cos", "tan", "sinh", "cosh",
@@ -74,7 +76,7 @@ def is_difference_quotient(ctx: Context, node: ast.AST) -> bool:
     """(f(x + h) - f(x)) / h, directly or through a local: the finite-difference rule's pattern."""
     parent = ctx.parent(node)
     if isinstance(parent, ast.BinOp) and isinstance(parent.op, ast.Div) and parent.left is node:
-        return p.has_free_names(parent.right)
+        return reads_variables(ctx, parent.right)
     if isinstance(parent, ast.Assign) and len(parent.targets) == 1 and isinstance(parent.targets[0], ast.Name):
         name = parent.targets[0].id
         return any(isinstance(n, ast.BinOp) and isinstance(n.op, ast.Div) and isinstance(n.left, ast.Name)
@@ -145,7 +147,7 @@ class SubtractiveCancellation(Rule):
         if family not in _SMOOTH or ctx.family(right) != family:
             return None
         a, b = p.single_arg(left), p.single_arg(right)
-        if a is None or b is None or p.same_expr(a, b) or not (p.names_in(a) & p.names_in(b)):
+        if a is None or b is None or p.same_expr(a, b) or not (variables(ctx, a) & variables(ctx, b)):
             return None
         if is_difference_quotient(ctx, node):
             return None
@@ -160,7 +162,7 @@ class SubtractiveCancellation(Rule):
         for call, other, sign in ((ops.left, ops.right, 1), (ops.right, ops.left, -1)):
             family = ctx.family(call) if isinstance(call, ast.Call) else None
             arg = p.single_arg(call)
-            if family is None or arg is None or not p.has_free_names(arg):
+            if family is None or arg is None or not reads_variables(ctx, arg):
                 continue
             assert isinstance(call, ast.Call)
             module = p.callee_module(ctx, call) or "math"
@@ -183,7 +185,7 @@ class SubtractiveCancellation(Rule):
         if not (isinstance(l, ast.Call) and isinstance(r, ast.Call)) or {ctx.family(l), ctx.family(r)} != {"tan", "sin"}:
             return None
         x, y = p.single_arg(l), p.single_arg(r)
-        if x is None or y is None or not p.same_expr(x, y) or not p.has_free_names(x):
+        if x is None or y is None or not p.same_expr(x, y) or not reads_variables(ctx, x):
             return None
         tan_call = l if ctx.family(l) == "tan" else r
         sin, imports = spelled_like(ctx, p.callee_module(ctx, tan_call) or "math", "sin")
@@ -199,7 +201,7 @@ class SubtractiveCancellation(Rule):
             return None
         assert isinstance(l, ast.BinOp) and isinstance(r, ast.BinOp)
         n, d1, d2 = l.left, l.right, r.right
-        if not p.same_expr(n, r.left) or p.same_expr(d1, d2) or not (p.names_in(d1) & p.names_in(d2)):
+        if not p.same_expr(n, r.left) or p.same_expr(d1, d2) or not (variables(ctx, d1) & variables(ctx, d2)):
             return None
         if (p.is_integer_valued(ctx, d1) and p.is_integer_valued(ctx, d2)) or is_difference_quotient(ctx, node):
             return None
@@ -212,7 +214,7 @@ class SubtractiveCancellation(Rule):
     @staticmethod
     def _absorbed(ctx: Context, node: ast.AST, ops: Operands) -> Found | None:
         for big, small, sign in ((ops.left, ops.right_written, 1), (ops.right, ops.left_written, -1)):
-            rest = absorbed_part(big, small)
+            rest = absorbed_part(ctx, big, small)
             if rest is None or in_test(ctx, node) or error_free(ctx, node, rest):
                 continue
             if all(p.is_integer_valued(ctx, t) for t, _ in alg.signed_terms(big)):
@@ -223,11 +225,11 @@ class SubtractiveCancellation(Rule):
         return None
 
 
-def absorbed_part(big: ast.expr, small: ast.expr) -> ast.expr | None:
+def absorbed_part(ctx: Context, big: ast.expr, small: ast.expr) -> ast.expr | None:
     """b for big = small + b; x*d for big = x*(1 + d) with small = x; else None."""
     terms = alg.signed_terms(big)
     hit = next((i for i, (t, s) in enumerate(terms) if s > 0 and p.same_expr(t, small)), None)
-    if len(terms) >= 2 and hit is not None and p.has_free_names(small):
+    if len(terms) >= 2 and hit is not None and reads_variables(ctx, small):
         return alg.build_sum(terms[:hit] + terms[hit + 1:])
     factors, wanted = alg.mult_factors(big), alg.mult_factors(small)
     for i, f in enumerate(factors):

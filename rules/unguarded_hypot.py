@@ -15,7 +15,7 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
-from auditor.elementary import spelled_like, sqrt_argument, square_base, stable_origin
+from auditor.elementary import reads_variables, root_sum, spelled_like, sqrt_argument, square_base, stable_origin
 
 #: libraries with a hypot, and whether it takes more than two arguments
 _HYPOT = {"math": True, "numpy": False, "torch": False, "jax.numpy": False, "cupy": False, "mpmath": False}
@@ -27,7 +27,7 @@ def components(ctx: Context, radicand: ast.expr) -> list[ast.expr] | None:
     if len(terms) < 2 or any(sign < 0 for _, sign in terms):
         return None
     bases = [square_base(ctx, t) for t, _ in terms]
-    if any(b is None or not p.has_free_names(b) for b in bases):
+    if any(b is None or not reads_variables(ctx, b) for b in bases):
         return None
     if all(p.is_integer_valued(ctx, b) for b in bases):  # type: ignore[arg-type]
         return None  # integer offsets: the squares are exact and far from overflow
@@ -70,7 +70,7 @@ class UnguardedHypot(Rule):
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
         radicand = sqrt_argument(ctx, node)
-        if radicand is None:
+        if radicand is None or self._in_root_difference(ctx, node):
             return
         value = ctx.origin(radicand)
         parts = components(ctx, value)
@@ -84,3 +84,12 @@ class UnguardedHypot(Rule):
         fix = rewrite or "a hypot function"
         yield Hit(node, f"the squares overflow to inf for components above about 1e154 and underflow to 0 below "
                   f"1e-154 while the length itself is representable; use {fix}", rewrite=rewrite, imports=imports)
+
+    @staticmethod
+    def _in_root_difference(ctx: Context, node: ast.AST) -> bool:
+        """`sqrt(x*x + y*y) - x`: sqrt-difference reports the worse loss; its rewrite keeps this root for later."""
+        parent = ctx.parent(node)
+        if not (isinstance(parent, ast.BinOp) and isinstance(parent.op, ast.Sub)):
+            return False
+        shape = root_sum(ctx, parent)
+        return shape is not None and shape.other_sign != shape.root_sign

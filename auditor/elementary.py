@@ -130,7 +130,7 @@ def root_sum(ctx: Context, node: ast.AST) -> RootSum | None:
     """Match a two-term sum of y and sqrt(y*y + rest), in either order and with any signs."""
     if not isinstance(node, (ast.BinOp, ast.UnaryOp)):
         return None
-    terms = signed_terms(node)  # type: ignore[arg-type]
+    terms = signed_terms(node)
     if len(terms) != 2:
         return None
     for (root, rs), (other, os_) in (terms, terms[::-1]):

@@ -64,7 +64,8 @@ class AtanOfRatio(Rule):
             yield Hit(node, "atan(y / x) is off by pi when x < 0 and divides by zero at x = 0; use atan2(y, x) "
                       "if the angle of the point (x, y) is meant")
             return
-        rewrite, imports = None, ()
+        rewrite: str | None = None
+        imports: tuple[str, ...] = ()
         if module in _ATAN2 and stable_origin(ctx, ratio, node):
             func, imports = spelled_like(ctx, module, _ATAN2[module])
             rewrite = alg.in_place(alg.call(func, y, x))

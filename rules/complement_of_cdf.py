@@ -133,7 +133,8 @@ class ComplementOfCdf(Rule):
         found = complement(ctx, ops.right)
         if found is None:
             return
-        rewrite, imports = None, ()
+        rewrite: str | None = None
+        imports: tuple[str, ...] = ()
         if not ops.aug and stable_origin(ctx, ops.right, node):
             rewrite, imports = alg.in_place(found[0]), found[1]
         yield Hit(node, "in the upper tail the cdf rounds to 1, so this keeps only the tail's digits above 1.1e-16 "

@@ -64,7 +64,8 @@ class OneMinusCosine(Rule):
         arg = p.single_arg(call)
         if arg is None or not reads_variables(ctx, arg):
             return
-        rewrite, imports = None, ()
+        rewrite: str | None = None
+        imports: tuple[str, ...] = ()
         if not ops.aug and stable_origin(ctx, call, written):
             rewrite, imports = half_angle(ctx, call, arg, negate)
         fix = rewrite or "2*sin(x/2)**2"

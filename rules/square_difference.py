@@ -92,7 +92,8 @@ class SquareDifference(Rule):
         if (p.is_integer_valued(ctx, x) and p.is_integer_valued(ctx, y)) or from_reduction(ctx, x) or from_reduction(ctx, y):
             return
         correlated = bool(value_names(ctx, x) & value_names(ctx, y))
-        rewrite, imports = None, ()
+        rewrite: str | None = None
+        imports: tuple[str, ...] = ()
         if not ops.aug and stable_origin(ctx, x, node) and stable_origin(ctx, y, node):
             trig = pythagoras(ctx, x, y)
             if trig is not None:

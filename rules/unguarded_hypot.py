@@ -77,7 +77,8 @@ class UnguardedHypot(Rule):
         if parts is None:
             return
         module = p.callee_module(ctx, node) or ("numpy" if ctx.imports.imports_any("numpy") else "math")
-        rewrite, imports = None, ()
+        rewrite: str | None = None
+        imports: tuple[str, ...] = ()
         if module in _HYPOT and stable_origin(ctx, value, node):
             func, imports = spelled_like(ctx, module, "hypot")
             rewrite = alg.in_place(hypot_call(func, _HYPOT[module], parts))

@@ -14,7 +14,7 @@ from mpmath import libmp
 from auditor.numerics import metrics as mx
 from auditor.numerics.budget import Budget, BudgetExceeded, NotEvaluable
 from auditor.numerics.interp import Tracer
-from auditor.numerics.reference import AGREE_DIGITS, MARGIN_BITS, START_BITS, NotConverged, converge
+from auditor.numerics.reference import AGREE_DIGITS, MARGIN_BITS, START_BITS, NotConverged, agree, converge
 
 #: Time one unit should take; slow units (long loops) are measured on fewer samples.
 TARGET_SECONDS = 1.5
@@ -224,9 +224,20 @@ def measure_points(shadow: Shadow, points: Sequence[dict[str, Any]], seconds: fl
     start = time.monotonic()
     uses_arrays(shadow, points)
     with quiet(START_BITS):
+        _float_first(shadow, points[0])
         bits = settle_bits(shadow, points, seconds / 4)
     with quiet(bits):
         return _measure_all(shadow, points, bits, start, seconds)
+
+
+def _float_first(shadow: Shadow, point: dict[str, Any]) -> None:
+    """One cheap float run before any reference run, so a runaway loop is caught at float speed."""
+    try:
+        run_float(shadow, point)
+    except _FATAL:
+        raise
+    except Exception:
+        return  # judged per sample later
 
 
 def _measure_all(shadow: Shadow, points: Sequence[dict[str, Any]], bits: int, start: float, seconds: float) -> tuple[list[Sample], int, str]:
@@ -272,30 +283,35 @@ def trace_terms(shadow: Shadow, point: dict[str, Any], bits: int) -> tuple[list[
 
 #: Samples on which a rewrite's own reference is computed to check it is the same function.
 SAME_FUNCTION_CHECKS = 16
+#: Same-function tolerance: references within one float64 unit roundoff (2^-52 relative), so a
+#: float user cannot tell them apart; this admits replacing a truncated series by its closed form.
+SAME_VALUE_DIGITS = 15.65
 
 
 def remeasure(shadow: Shadow, before: Sequence[Sample]) -> list[Sample]:
     """A rewrite on the original's samples: its float run against the original's reference (the
     same function's exact value) and the original's condition number. Its own reference is
     computed on SAME_FUNCTION_CHECKS samples, spread out and including the worst ones, so a
-    rewrite computing a different function is caught without paying a reference per sample."""
+    rewrite computing a different function is caught without paying a reference per sample;
+    when one is caught, every sample is measured against the rewrite's own reference instead
+    (its digits lost are then its own arithmetic's, e.g. a closed form replacing a series)."""
     measured = [i for i, b in enumerate(before) if b.digits_lost is not None]
     check = set(_spread(measured, SAME_FUNCTION_CHECKS)) if measured else set()
-    out: list[Sample] = []
     bits = max((b.bits for b in before), default=START_BITS)
     uses_arrays(shadow, [b.inputs for b in before])
     with quiet(bits):
-        for i, b in enumerate(before):
-            out.append(_again(shadow, b, i in check))
-    worst = sorted(range(len(out)), key=lambda i: -(out[i].digits_lost or 0.0))[:2]
-    with quiet(bits):
+        out = [_again(shadow, b, i in check) for i, b in enumerate(before)]
+        worst = sorted(range(len(out)), key=lambda i: -(out[i].digits_lost or 0.0))[:2]
         for i in worst:
             if i not in check and out[i].digits_lost is not None:
                 out[i] = _again(shadow, before[i], True)
+        if any(a.digits_lost is not None and not agree(a.reference, b.reference, SAME_VALUE_DIGITS)
+               for a, b in zip(out, before)):
+            out = [_again(shadow, b, True, against_own=True) for b in before]
     return out
 
 
-def _again(shadow: Shadow, b: Sample, own_reference: bool) -> Sample:
+def _again(shadow: Shadow, b: Sample, own_reference: bool, against_own: bool = False) -> Sample:
     if b.digits_lost is None:
         return Sample(b.inputs, note=b.note or "excluded in the original")
     try:
@@ -308,8 +324,8 @@ def _again(shadow: Shadow, b: Sample, own_reference: bool) -> Sample:
         raise
     except Exception as exc:
         return Sample(b.inputs, note=f"rewrite raised {type(exc).__name__}")
-    if b.index >= len(fv):
+    if b.index >= len(fv) or reference is None:
         return Sample(b.inputs, note="the rewrite returns fewer values")
     f = fv[b.index]
-    loss = mx.digits_lost(f, b.reference, mx.digits_of(f))
+    loss = mx.digits_lost(f, reference if against_own else b.reference, mx.digits_of(f))
     return Sample(b.inputs, f, reference, loss, b.condition_log10, b.bits, digits=mx.digits_of(f), index=b.index)

@@ -5,16 +5,12 @@ from collections.abc import Sequence
 
 from auditor.numerics import metrics as mx
 from auditor.numerics.reference import agree
-from auditor.numerics.run import Sample
+from auditor.numerics.run import SAME_VALUE_DIGITS, Sample
 
 #: After the rewrite, the worst loss may exceed what the condition number explains by this much.
 WITHIN_CONDITION = 1.0
 #: No sample may get worse than this many digits.
 WORSE_ALLOWED = 0.5
-#: The rewrite must compute the same function: its reference may differ from the original's by
-#: less than one float64 unit roundoff (2^-52 relative), so a float user cannot tell them apart;
-#: this admits replacing a truncated series by its closed form.
-SAME_VALUE_DIGITS = 15.65
 
 
 def verify_rewrite(before: Sequence[Sample], after: Sequence[Sample]) -> tuple[bool, str]:

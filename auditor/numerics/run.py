@@ -16,9 +16,14 @@ from auditor.numerics.budget import Budget, BudgetExceeded, NotEvaluable
 from auditor.numerics.interp import Tracer
 from auditor.numerics.reference import AGREE_DIGITS, MARGIN_BITS, START_BITS, NotConverged, agree, converge
 
-#: Time one unit should take; slow units (long loops) are measured on fewer samples.
-TARGET_SECONDS = 1.5
-MIN_SAMPLES = 16
+#: Loop passes (of the float run) one unit may spend on all its samples; units with long loops
+#: are measured on fewer samples (deterministic, unlike a clock).
+STEP_ALLOWANCE = 60_000
+MIN_SAMPLES = 8
+#: Safety net on a unit's wall-clock time.
+HARD_SECONDS = 10.0
+#: Loop passes above which only two pilot points settle the precision.
+LONG_LOOP = 2_000
 PILOT = 6
 
 
@@ -103,18 +108,15 @@ def _mp(v: Any) -> Any:
     return mpmath.mpf(v) if isinstance(v, float) else v
 
 
-def settle_bits(shadow: Shadow, points: Sequence[dict[str, Any]], seconds: float = 0.5) -> int:
-    """Precision the pilot points need for 30 stable digits, plus a margin (once per unit).
-    The first pilot point is always settled; the others while `seconds` last."""
-    start = time.monotonic()
+def settle_bits(shadow: Shadow, points: Sequence[dict[str, Any]], limit: int = PILOT + 8) -> int:
+    """Precision the pilot points (at most `limit`) need for 30 stable digits, plus a margin
+    (once per unit; samples that cancel more are rechecked in `measure_sample`)."""
     needed = START_BITS
-    for point in _pilot(points, shadow.vary):
+    for point in _pilot(points, shadow.vary)[:limit]:
         try:
             needed = max(needed, converge(lambda b: run_ref(shadow, point, b)).bits)
         except (NotConverged, ArithmeticError, ValueError, TypeError, IndexError):
             pass  # this sample is judged again (and excluded if need be) in the main pass
-        if time.monotonic() - start > seconds:
-            break
     return needed + MARGIN_BITS
 
 
@@ -215,46 +217,41 @@ def _moves(shadow: Shadow, point: dict[str, Any], bits: int) -> list[tuple[str, 
     return out
 
 
-def measure_points(shadow: Shadow, points: Sequence[dict[str, Any]], seconds: float = TARGET_SECONDS) -> tuple[list[Sample], int, str]:
-    """Every point measured: samples, reference bits, and a note when fewer were measured.
+def measure_points(shadow: Shadow, points: Sequence[dict[str, Any]], seconds: float = HARD_SECONDS) -> tuple[list[Sample], int, str]:
+    """The points measured: samples, reference bits, and a note when fewer were measured.
 
-    The first sample's cost sets how many fit in `seconds` (at least MIN_SAMPLES, spread
-    evenly over the planned points, the first ones kept); a hard stop comes at 3 * `seconds`.
+    Units with long loops get fewer samples, chosen deterministically (same seed, same report):
+    the loop passes of one float run set how many fit in STEP_ALLOWANCE (at least MIN_SAMPLES,
+    spread evenly over the planned points). `seconds` is only a safety net on wall-clock time.
     """
     start = time.monotonic()
     uses_arrays(shadow, points)
     with quiet(START_BITS):
-        _float_first(shadow, points[0])
-        bits = settle_bits(shadow, points, seconds / 4)
+        steps = _float_first(shadow, points[0])
+        bits = settle_bits(shadow, points, PILOT + 8 if steps <= LONG_LOOP else 2)
+    count = len(points) if steps == 0 else max(MIN_SAMPLES, STEP_ALLOWANCE // steps)
+    chosen = _spread(points, count)
+    samples: list[Sample] = []
     with quiet(bits):
-        return _measure_all(shadow, points, bits, start, seconds)
+        for point in chosen:
+            samples.append(measure_sample(shadow, point, bits))
+            if time.monotonic() - start > seconds and len(samples) < len(chosen):
+                return samples, bits, f"stopped after {len(samples)} of {len(points)} samples (time limit {seconds:g} s)"
+    if len(samples) < len(points):
+        return samples, bits, f"measured {len(samples)} of {len(points)} samples (each runs {steps} loop passes)"
+    return samples, bits, ""
 
 
-def _float_first(shadow: Shadow, point: dict[str, Any]) -> None:
-    """One cheap float run before any reference run, so a runaway loop is caught at float speed."""
+def _float_first(shadow: Shadow, point: dict[str, Any]) -> int:
+    """One cheap float run before any reference run: a runaway loop is caught at float speed,
+    and its loop passes measure the unit's cost. Returns the loop passes."""
     try:
         run_float(shadow, point)
     except _FATAL:
         raise
     except Exception:
-        return  # judged per sample later
-
-
-def _measure_all(shadow: Shadow, points: Sequence[dict[str, Any]], bits: int, start: float, seconds: float) -> tuple[list[Sample], int, str]:
-    samples, costs = [], []
-    for point in points[:4]:  # the median cost of the first few samples (the very first may import)
-        began = time.monotonic()
-        samples.append(measure_sample(shadow, point, bits))
-        costs.append(max(time.monotonic() - began, 1e-6))
-    cost = sorted(costs)[len(costs) // 2]
-    chosen = _spread(points, max(MIN_SAMPLES, len(samples) + int((seconds - (time.monotonic() - start)) / cost)))
-    for point in chosen[len(samples):]:
-        samples.append(measure_sample(shadow, point, bits))
-        if time.monotonic() - start > 3 * seconds and len(samples) < len(chosen):
-            break
-    if len(samples) < len(points):
-        return samples, bits, f"measured {len(samples)} of {len(points)} samples (about {cost * 1e3:.0f} ms each; time allowance)"
-    return samples, bits, ""
+        pass  # judged per sample later
+    return shadow.budget.steps
 
 
 def _spread(points: Sequence[dict[str, Any]], count: int) -> list[dict[str, Any]]:

@@ -15,7 +15,7 @@ def _number(node: ast.AST) -> float | int | None:
         inner = _number(node.operand)
         return None if inner is None else (-inner if isinstance(node.op, ast.USub) else inner)
     if isinstance(node, ast.Constant) and type(node.value) in (int, float):
-        return node.value  # type: ignore[no-any-return]
+        return node.value  # type: ignore[return-value]
     return None
 
 

@@ -17,11 +17,11 @@ from auditor.model import Finding, Measurement, Report, Rewrite, Severity, Span,
 from auditor.numerics.budget import NotEvaluable
 from auditor.numerics.inputs import DomainSyntaxError
 from auditor.numerics.plan import InputPlan, plan_inputs
-from auditor.numerics.run import Sample, Shadow, measure_points, remeasure, trace_terms
+from auditor.numerics.run import Sample, Shadow, measure_points, trace_terms
 from auditor.numerics.summary import not_measured, summarize, worst_of
 from auditor.numerics.trace import series_figures
 from auditor.numerics.unit import Unit, build_unit, compile_shadow, locate, source_module
-from auditor.numerics.verify import verify_rewrite
+from auditor.numerics.verify import remeasure, verify_rewrite
 from auditor.rule import Context
 from auditor.scan import walk
 from auditor.splice import offsets

@@ -12,10 +12,10 @@ from auditor.numerics.budget import NotEvaluable
 from auditor.numerics.chart import digits_chart
 from auditor.numerics.inputs import DomainSyntaxError, Range, parse_domain, sample_points
 from auditor.numerics.interp import SourceModule
-from auditor.numerics.run import Sample, measure_points, remeasure
+from auditor.numerics.run import Sample, measure_points
 from auditor.numerics.summary import not_measured, summarize
 from auditor.numerics.unit import Unit, compile_shadow, free_names
-from auditor.numerics.verify import verify_rewrite
+from auditor.numerics.verify import remeasure, verify_rewrite
 from auditor.resolve import ImportTable
 
 #: Names an expression may use without importing them (a probe has no import lines).

@@ -202,7 +202,8 @@ def _mp(name: str) -> Callable[..., Any]:
         return lambda x: mpmath.log(x, 2)
     if name == "exp2":
         return lambda x: mpmath.power(2, x)
-    return getattr(mpmath, _NP_TO_MP.get(name, name))
+    fn: Callable[..., Any] = getattr(mpmath, _NP_TO_MP.get(name, name))
+    return fn
 
 
 def _ref_sum(values: Any, *args: Any, **kwargs: Any) -> Any:

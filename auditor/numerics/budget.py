@@ -55,15 +55,15 @@ class Budget:
 
 def check_int(value: object) -> object:
     """Refuse integers too large to be a sensible numeric input."""
-    if value.__class__ is int and value.bit_length() > MAX_INT_BITS:  # type: ignore[attr-defined]
+    if isinstance(value, int) and value.bit_length() > MAX_INT_BITS:
         raise BudgetExceeded(f"integer of more than {MAX_INT_BITS} bits")
     return value
 
 
 def checked_pow(base: object, exponent: object) -> object:
     """`base ** exponent`, refusing integer powers whose result would be huge (10**10**10)."""
-    if base.__class__ is int and exponent.__class__ is int and exponent > 0:  # type: ignore[operator]
-        if abs(base) > 1 and base.bit_length() * exponent > MAX_INT_BITS:  # type: ignore[arg-type,attr-defined,operator]
+    if isinstance(base, int) and isinstance(exponent, int) and exponent > 0:
+        if abs(base) > 1 and base.bit_length() * exponent > MAX_INT_BITS:
             raise BudgetExceeded(f"integer power {base}**{exponent} is too large")
     return base ** exponent  # type: ignore[operator]
 

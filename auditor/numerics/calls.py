@@ -28,8 +28,9 @@ class CallCompiler(ExprCompiler):
                 raise NotEvaluable(f"calls the local value {name}")
             if name in self.module.functions:
                 return self._user_function(name)
-            if is_builtin(name):
-                return self.backend.function(name)
+            builtin = self.backend.function(name) if is_builtin(name) else None
+            if builtin is not None:
+                return builtin  # type: ignore[no-any-return]
         text = describe(func)
         if "__" in text:
             raise NotEvaluable(f"uses a dunder name ({text})")
@@ -37,7 +38,7 @@ class CallCompiler(ExprCompiler):
         impl = self.backend.function(qual) if qual else None
         if impl is None:
             raise NotEvaluable(f"calls {text}" + (f" ({qual})" if qual and qual != text else ""))
-        return impl
+        return impl  # type: ignore[no-any-return]
 
     def _user_function(self, name: str) -> Callable[..., Any]:
         if name not in self.user_functions:
@@ -52,7 +53,7 @@ class CallCompiler(ExprCompiler):
             raise NotEvaluable(f"uses * or ** arguments ({describe(node)})")
         fn = self.callee(node.func)
         args = [self.expr(a) for a in node.args]
-        keywords = [(k.arg, self.expr(k.value)) for k in node.keywords]
+        keywords = [(str(k.arg), self.expr(k.value)) for k in node.keywords]
         if self.backend.reference and keywords:
             keywords = [(k, v) for k, v in keywords if k != "dtype"]  # reference arrays are object arrays
         if not keywords:

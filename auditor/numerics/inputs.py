@@ -5,6 +5,7 @@ import math
 import re
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 
@@ -63,7 +64,7 @@ def _log_uniform(rng: np.random.Generator, lo: float, hi: float, n: int) -> np.n
     return np.exp(rng.uniform(math.log(lo), math.log(hi), n))
 
 
-def sample_range(r: Range, n: int, rng: np.random.Generator) -> list[float]:
+def sample_range(r: Range, n: int, rng: np.random.Generator) -> list[Any]:
     """n values from a range: its ends first, then log-uniform magnitudes where it spans more
     than two decades (both signs where it crosses zero), else uniform; integers for integer ranges."""
     if r.lo == r.hi or n <= 1:

@@ -34,7 +34,7 @@ def digits_of(value: Any) -> float:
 
 def is_finite_number(value: Any) -> bool:
     if value.__class__ is float:
-        return value - value == 0.0  # False for inf and nan
+        return bool(value - value == 0.0)  # False for inf and nan
     try:
         return bool(np.isfinite(complex(value)))
     except (TypeError, ValueError, OverflowError):
@@ -106,7 +106,7 @@ def out_of_range(reference: Any) -> bool:
     except TypeError:
         size = abs(complex(reference))
     if size == 0:
-        return reference != 0
+        return bool(reference != 0)
     return size > LARGEST or size < SMALLEST_NORMAL
 
 

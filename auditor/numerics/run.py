@@ -5,7 +5,7 @@ import math
 import time
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass, field
-from typing import Any
+from typing import Any, TypeVar
 
 import mpmath
 import numpy as np
@@ -14,7 +14,7 @@ from mpmath import libmp
 from auditor.numerics import metrics as mx
 from auditor.numerics.budget import Budget, BudgetExceeded, NotEvaluable
 from auditor.numerics.interp import Tracer
-from auditor.numerics.reference import AGREE_DIGITS, MARGIN_BITS, START_BITS, NotConverged, agree, converge
+from auditor.numerics.reference import AGREE_DIGITS, MARGIN_BITS, START_BITS, NotConverged, converge
 
 #: Loop passes (of the float run) one unit may spend on all its samples; units with long loops
 #: are measured on fewer samples (deterministic, unlike a clock).
@@ -137,20 +137,20 @@ def _needs_recheck(loss: float, digits: float, bits: int) -> bool:
     return loss >= digits - 0.05 or loss > spare
 
 
-_FATAL = (NotEvaluable,)  # BudgetExceeded is a NotEvaluable: a runaway unit stops the whole unit
+FATAL = (NotEvaluable,)  # BudgetExceeded is a NotEvaluable: a runaway unit stops the whole unit
 
 
 def measure_sample(shadow: Shadow, point: dict[str, Any], bits: int) -> Sample:
     """Float run, reference run (rechecked where needed), digits lost and condition at one point."""
     try:
         fv = flatten(run_float(shadow, point))
-    except _FATAL:
+    except FATAL:
         raise
     except Exception as exc:  # the code's own failure at this input: the sample is outside its domain
         return Sample(point, note=f"float run raised {type(exc).__name__}")
     try:
         rv = flatten(run_ref(shadow, point, bits))
-    except _FATAL:
+    except FATAL:
         raise
     except Exception as exc:
         return Sample(point, note=f"reference run raised {type(exc).__name__}")
@@ -162,7 +162,7 @@ def measure_sample(shadow: Shadow, point: dict[str, Any], bits: int) -> Sample:
             found = converge(lambda b: flatten(run_ref(shadow, point, b)), start=bits)
         except NotConverged as exc:
             return Sample(point, float_value=fv[j], note=str(exc))
-        except _FATAL:
+        except FATAL:
             raise
         except Exception as exc:
             return Sample(point, note=f"reference run raised {type(exc).__name__}")
@@ -188,7 +188,7 @@ def _condition(shadow: Shadow, point: dict[str, Any], base: Any, j: int, bits: i
     for name, moved in _moves(shadow, point, bits):
         try:
             shifted.append(flatten(run_ref(shadow, {**point, name: moved}, bits))[j])
-        except _FATAL:
+        except FATAL:
             raise
         except Exception:
             return None  # the step left the domain (a branch point or a domain edge)
@@ -197,6 +197,7 @@ def _condition(shadow: Shadow, point: dict[str, Any], base: Any, j: int, bits: i
     return mx.condition_log10(base, shifted)
 
 
+T = TypeVar("T")
 _FACTOR = mpmath.mpf(1) + mpmath.ldexp(1, -mx.STEP_BITS)
 _MAKE = mpmath.mp.make_mpf
 _from_float = libmp.from_float
@@ -230,7 +231,7 @@ def measure_points(shadow: Shadow, points: Sequence[dict[str, Any]], seconds: fl
         steps = _float_first(shadow, points[0])
         bits = settle_bits(shadow, points, PILOT + 8 if steps <= LONG_LOOP else 2)
     count = len(points) if steps == 0 else max(MIN_SAMPLES, STEP_ALLOWANCE // steps)
-    chosen = _spread(points, count)
+    chosen = spread(points, count)
     samples: list[Sample] = []
     with quiet(bits):
         for point in chosen:
@@ -247,14 +248,15 @@ def _float_first(shadow: Shadow, point: dict[str, Any]) -> int:
     and its loop passes measure the unit's cost. Returns the loop passes."""
     try:
         run_float(shadow, point)
-    except _FATAL:
+    except FATAL:
         raise
     except Exception:
         pass  # judged per sample later
     return shadow.budget.steps
 
 
-def _spread(points: Sequence[dict[str, Any]], count: int) -> list[dict[str, Any]]:
+def spread(points: Sequence[T], count: int) -> list[T]:
+    """`count` items evenly spread over `points`, the first quarter kept in order."""
     if count >= len(points):
         return list(points)
     head = min(len(points), max(4, count // 4))
@@ -276,53 +278,3 @@ def trace_terms(shadow: Shadow, point: dict[str, Any], bits: int) -> tuple[list[
         return [], []
     finally:
         shadow.float_tracer.log = shadow.ref_tracer.log = None
-
-
-#: Samples on which a rewrite's own reference is computed to check it is the same function.
-SAME_FUNCTION_CHECKS = 16
-#: Same-function tolerance: references within one float64 unit roundoff (2^-52 relative), so a
-#: float user cannot tell them apart; this admits replacing a truncated series by its closed form.
-SAME_VALUE_DIGITS = 15.65
-
-
-def remeasure(shadow: Shadow, before: Sequence[Sample]) -> list[Sample]:
-    """A rewrite on the original's samples: its float run against the original's reference (the
-    same function's exact value) and the original's condition number. Its own reference is
-    computed on SAME_FUNCTION_CHECKS samples, spread out and including the worst ones, so a
-    rewrite computing a different function is caught without paying a reference per sample;
-    when one is caught, every sample is measured against the rewrite's own reference instead
-    (its digits lost are then its own arithmetic's, e.g. a closed form replacing a series)."""
-    measured = [i for i, b in enumerate(before) if b.digits_lost is not None]
-    check = set(_spread(measured, SAME_FUNCTION_CHECKS)) if measured else set()
-    bits = max((b.bits for b in before), default=START_BITS)
-    uses_arrays(shadow, [b.inputs for b in before])
-    with quiet(bits):
-        out = [_again(shadow, b, i in check) for i, b in enumerate(before)]
-        worst = sorted(range(len(out)), key=lambda i: -(out[i].digits_lost or 0.0))[:2]
-        for i in worst:
-            if i not in check and out[i].digits_lost is not None:
-                out[i] = _again(shadow, before[i], True)
-        if any(a.digits_lost is not None and not agree(a.reference, b.reference, SAME_VALUE_DIGITS)
-               for a, b in zip(out, before)):
-            out = [_again(shadow, b, True, against_own=True) for b in before]
-    return out
-
-
-def _again(shadow: Shadow, b: Sample, own_reference: bool, against_own: bool = False) -> Sample:
-    if b.digits_lost is None:
-        return Sample(b.inputs, note=b.note or "excluded in the original")
-    try:
-        fv = flatten(run_float(shadow, b.inputs))
-        reference = b.reference
-        if own_reference:
-            rv = flatten(run_ref(shadow, b.inputs, b.bits))
-            reference = rv[b.index] if b.index < len(rv) else None
-    except _FATAL:
-        raise
-    except Exception as exc:
-        return Sample(b.inputs, note=f"rewrite raised {type(exc).__name__}")
-    if b.index >= len(fv) or reference is None:
-        return Sample(b.inputs, note="the rewrite returns fewer values")
-    f = fv[b.index]
-    loss = mx.digits_lost(f, reference if against_own else b.reference, mx.digits_of(f))
-    return Sample(b.inputs, f, reference, loss, b.condition_log10, b.bits, digits=mx.digits_of(f), index=b.index)

@@ -32,7 +32,7 @@ def reference_text(value: Any) -> str | None:
     if value is None:
         return None
     try:
-        return mpmath.nstr(value, 32, min_fixed=-4, max_fixed=6)
+        return str(mpmath.nstr(value, 32, min_fixed=-4, max_fixed=6))
     except (TypeError, ValueError):
         return str(value)
 

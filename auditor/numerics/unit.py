@@ -78,7 +78,7 @@ def char_span(node: ast.AST, lines: Sequence[str]) -> Span | None:
         return len(text.encode("utf-8")[:byte_col].decode("utf-8", "replace")) + 1
 
     return Span(node.lineno, chars(node.lineno, node.col_offset), node.end_lineno,  # type: ignore[attr-defined]
-                chars(node.end_lineno, node.end_col_offset))  # type: ignore[attr-defined,arg-type]
+                chars(node.end_lineno, node.end_col_offset))  # type: ignore[attr-defined]
 
 
 def locate(tree: ast.Module, span: Span, lines: Sequence[str], inside: bool = False) -> ast.AST | None:

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import ast
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 from typing import Any
 
 import numpy as np
@@ -83,6 +83,59 @@ def _around(values: Sequence[float], integer: bool) -> Range:
     return Range(lo, hi, False)
 
 
+@dataclass(slots=True)
+class _Draft:
+    """Inputs being decided, source by source (each step takes the names still open)."""
+
+    todo: list[str]
+    integers: set[str]
+    fixed: dict[str, Any] = field(default_factory=dict)
+    ranges: dict[str, Range] = field(default_factory=dict)
+    exact: list[dict[str, Any]] = field(default_factory=list)
+    assumed: list[str] = field(default_factory=list)
+    reasons: list[str] = field(default_factory=list)
+
+    def take(self, done: Sequence[str]) -> None:
+        self.todo = [n for n in self.todo if n not in done]
+
+
+def _from_domain(d: _Draft, domain_text: str) -> None:
+    given = parse_domain(domain_text)
+    for n in [n for n in d.todo if n in given]:
+        r = given[n]
+        d.ranges[n] = Range(r.lo, r.hi, r.integer and n in d.integers)
+    if d.ranges:
+        d.reasons.append(f"domain {domain_text.strip()}")
+    d.take(list(d.ranges))
+
+
+def _from_call_sites(d: _Draft, call_points: Sequence[Mapping[str, float]]) -> None:
+    covered = sorted({n for p in call_points for n in p if n in d.todo})
+    if not covered:
+        return
+    for n in covered:
+        d.ranges[n] = _around([float(p[n]) for p in call_points if n in p], n in d.integers)
+    d.exact = [{n: _typed(p[n], n in d.integers) for n in covered if n in p} for p in call_points]
+    d.reasons.append(f"{', '.join(covered)} from {len(call_points)} call site(s) with literal arguments and within a factor 2 of them")
+    d.take(covered)
+
+
+def _from_defaults(d: _Draft, function: ast.FunctionDef | None) -> None:
+    defaults = literal_defaults(function)
+    for n in [n for n in d.todo if n in defaults]:
+        d.fixed[n] = defaults[n]
+        d.reasons.append(f"{n}={defaults[n]!r} (its default)")
+    d.take(list(defaults))
+    for n in [n for n in d.todo if n in d.integers]:
+        d.ranges[n] = Range(0, 50, True)
+        d.reasons.append(f"{n} assumed an integer in 0..50")
+    d.take(list(d.integers))
+    d.assumed = list(d.todo)
+    if d.assumed:
+        d.reasons.append(f"{', '.join(d.assumed)} assumed (no domain given): |value| log-uniform in 1e-12..1e12, "
+                         "both signs, plus points near 0, 1 and large")
+
+
 def plan_inputs(
     names: Sequence[str],
     function: ast.FunctionDef | None,
@@ -93,58 +146,28 @@ def plan_inputs(
     samples: int,
     seed: int,
 ) -> InputPlan:
-    """Points for every input name, and the reason that says where they came from."""
-    integers = integer_names(function, expr)
-    fixed: dict[str, Any] = {n: None for n in names if n in _SELF}
-    todo = [n for n in names if n not in fixed]
-    if recorded:
-        points = [{**fixed, **{n: _typed(p[n], n in integers) for n in todo if n in p}} for p in recorded]
-        missing = [n for n in todo if any(n not in p for p in recorded)]
-        if not missing:
-            return InputPlan(points, f"inputs: {len(points)} recorded point(s)")
-    reasons: list[str] = []
-    ranges: dict[str, Range] = {}
+    """Points for every input name, and the reason that says where they came from: recorded
+    values, the domain, call-site literals, defaults and annotations, else the assumed box."""
+    d = _Draft([n for n in names if n not in _SELF], integer_names(function, expr), {n: None for n in names if n in _SELF})
+    if recorded and all(n in p for p in recorded for n in d.todo):
+        points = [{**d.fixed, **{n: _typed(p[n], n in d.integers) for n in d.todo}} for p in recorded]
+        return InputPlan(points, f"inputs: {len(points)} recorded point(s)")
     if domain_text:
-        given = parse_domain(domain_text)
-        for n in todo:
-            if n in given:
-                r = given[n]
-                ranges[n] = Range(r.lo, r.hi, r.integer and n in integers)
-        if ranges:
-            reasons.append(f"domain {domain_text.strip()}")
-    todo = [n for n in todo if n not in ranges]
-    exact: list[dict[str, Any]] = []
-    covered = sorted({n for p in call_points for n in p if n in todo})
-    if covered:
-        for n in covered:
-            ranges[n] = _around([float(p[n]) for p in call_points if n in p], n in integers)
-        exact = [{n: _typed(p[n], n in integers) for n in covered if n in p} for p in call_points]
-        reasons.append(f"{', '.join(covered)} from {len(call_points)} call site(s) with literal arguments and within a factor 2 of them")
-    todo = [n for n in todo if n not in covered]
-    defaults = literal_defaults(function)
-    for n in [n for n in todo if n in defaults]:
-        fixed[n] = defaults[n]
-        reasons.append(f"{n}={defaults[n]!r} (its default)")
-    todo = [n for n in todo if n not in defaults]
-    for n in [n for n in todo if n in integers]:
-        ranges[n] = Range(0, 50, True)
-        reasons.append(f"{n} assumed an integer in 0..50")
-    assumed = [n for n in todo if n not in integers]
-    if assumed:
-        reasons.append(f"{', '.join(assumed)} assumed (no domain given): |value| log-uniform in 1e-12..1e12, both signs, plus points near 0, 1 and large")
-    single = not assumed and all(r.lo == r.hi for r in ranges.values()) and not exact
-    count = 1 if single and not array_names([function, expr], names) else samples
-    points = sample_points(ranges, assumed, fixed, count, seed)
-    for n, r in ranges.items():
-        if r.integer:
-            for p in points:
-                p[n] = int(p[n])
-    points = [{**points[i % len(points)], **e} for i, e in enumerate(exact)] + points[: max(0, count - len(exact))]
+        _from_domain(d, domain_text)
+    _from_call_sites(d, call_points)
+    _from_defaults(d, function)
     arrays = array_names([function, expr], names)
+    single = not d.assumed and all(r.lo == r.hi for r in d.ranges.values()) and not d.exact and not arrays
+    count = 1 if single else samples
+    points = sample_points(d.ranges, d.assumed, d.fixed, count, seed)
+    for n in [n for n, r in d.ranges.items() if r.integer]:
+        for p in points:
+            p[n] = int(p[n])
+    points = [{**points[i % len(points)], **e} for i, e in enumerate(d.exact)] + points[: max(0, count - len(d.exact))]
     if arrays:
-        points = with_arrays(points, arrays, ranges, seed)
-        reasons.append(f"{', '.join(sorted(arrays))}: arrays of {ARRAY_SIZE} values each")
-    return InputPlan(points, "inputs: " + "; ".join(reasons) if reasons else "inputs: none (a constant unit)")
+        points = with_arrays(points, arrays, d.ranges, seed)
+        d.reasons.append(f"{', '.join(sorted(arrays))}: arrays of {ARRAY_SIZE} values each")
+    return InputPlan(points, "inputs: " + "; ".join(d.reasons) if d.reasons else "inputs: none (a constant unit)")
 
 
 #: Elements per array input (small: the reference evaluates arrays element by element).

@@ -11,6 +11,10 @@ import mpmath
 from auditor.model import SeriesFigures
 
 
+#: Term sizes kept for plots (the figures themselves use every term).
+MAX_PLOTTED = 200
+
+
 @dataclass(frozen=True, slots=True)
 class PartialSums:
     """Where the running sum of the float terms peaked (the source of the cancellation)."""
@@ -67,6 +71,7 @@ def series_figures(terms: Sequence[Any]) -> SeriesFigures | None:
         divergent=divergent,
         optimal_terms=k if divergent else None,
         truncation_error=_float(mags[k]) if divergent else None,
+        term_magnitudes=tuple(_float(m) for m in mags[:MAX_PLOTTED]),
     )
 
 

@@ -16,13 +16,14 @@ from auditor.series_signs import (
     is_sign_power, loop_statements, new_values, parity_sign, recurrence_ratio, sign_of, term_alternates,
     toggles_sign, updates, value_before,
 )
+from auditor.series_tables import Table, coefficient_table, grows_like_asymptotic
 from auditor.series_terms import (
-    Growth, growth, in_loop_resolver, integer_names, positive_series, positive_sum_call, recurrence,
+    Growth, exact_arithmetic, growth, in_loop_resolver, integer_names, positive_series, positive_sum_call, recurrence,
     subtracted_twin,
 )
 
 __all__ = [
-    "DESCRIBED", "KNOWN", "MAGNITUDE", "loop_rewrite", "severity_for", "summed_term", "vector_alternates", "Accumulation", "Growth", "Recognised", "accumulations", "alternation",
+    "Table", "exact_arithmetic", "coefficient_table", "grows_like_asymptotic", "DESCRIBED", "KNOWN", "MAGNITUDE", "loop_rewrite", "severity_for", "summed_term", "vector_alternates", "Accumulation", "Growth", "Recognised", "accumulations", "alternation",
     "bounded_below_x", "contains_sign_power", "factorial_weight", "fresh", "growth", "guard_explicit",
     "guard_recurrence", "in_loop_resolver", "index_degree", "index_names", "integer_names",
     "is_integer_term", "is_negative_factor", "is_sign_power", "library_call", "loop_statements",

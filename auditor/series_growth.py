@@ -96,6 +96,11 @@ def factorial_weight(ctx: Context, expr: ast.AST, idx: set[str], resolve: Resolv
     return max(left, right)
 
 
+def fixed_point(expr: ast.AST) -> bool:
+    """Integer or fixed-point arithmetic (`//`, `>>`, `<<`): not floating-point cancellation."""
+    return any(isinstance(n, ast.BinOp) and isinstance(n.op, (ast.FloorDiv, ast.RShift, ast.LShift)) for n in ast.walk(expr))
+
+
 def is_integer_term(ctx: Context, expr: ast.AST, ints: set[str], depth: int = 3) -> bool:
     """True when every value in the term is an exact Python int (combinatorial sums never round)."""
     if p.is_integer_literal(expr):

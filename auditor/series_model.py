@@ -242,7 +242,7 @@ def _matches(values: list[tuple[float, object]]) -> tuple[str, bool] | None:
 def _guarded(run: Callable[[float], object], x: float) -> object:
     try:
         return run(x)
-    except (Unknown, ArithmeticError, ValueError, TypeError, RecursionError, IndexError):
+    except (Unknown, _Break, _Continue, ArithmeticError, ValueError, TypeError, RecursionError, IndexError):
         return None
 
 

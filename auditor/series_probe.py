@@ -6,7 +6,7 @@ from collections.abc import Callable
 
 from auditor import patterns as p
 from auditor.rule import Context
-from auditor.series_model import _TERMS, Machine, Recognised, Unknown, recognise
+from auditor.series_model import _TERMS, Machine, Recognised, Unknown, _Break, _Continue, recognise
 
 _FUNCS = (ast.FunctionDef, ast.AsyncFunctionDef)
 
@@ -86,6 +86,8 @@ def _machine(ctx: Context, stmts: list[ast.stmt], env: dict[str, object]) -> Mac
     for stmt in stmts:
         try:
             m.statement(stmt)
+        except (_Break, _Continue):
+            raise Unknown("the function leaves before the series") from None
         except (Unknown, ArithmeticError, ValueError, TypeError):
             for n in ast.walk(stmt):
                 if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Store):

@@ -2,14 +2,16 @@
 from __future__ import annotations
 
 import ast
-from collections.abc import Iterator
+from collections.abc import Callable, Iterator
 from dataclasses import dataclass
+from typing import TypeVar
 
 from auditor import patterns as p
 from auditor.rule import Context
 
 _NESTED = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)
 Loop = ast.For | ast.While
+T = TypeVar("T")
 
 
 @dataclass(frozen=True, slots=True)
@@ -22,13 +24,30 @@ class Accumulation:
     stmt: ast.stmt
 
 
+_MEMO = "_auditor_series_memo"
+
+
+def _memo(loop: ast.AST, key: str, compute: Callable[[], T]) -> T:
+    """Per-loop cache: loop facts are asked for many times by both series rules."""
+    store = loop.__dict__.setdefault(_MEMO, {})
+    if key not in store:
+        store[key] = compute()
+    return store[key]  # type: ignore[no-any-return]
+
+
 def loop_statements(loop: Loop) -> Iterator[ast.AST]:
     """Every node in the loop body (and else), nested scopes excluded."""
+    return iter(_memo(loop, "nodes", lambda: _walk_body(loop)))
+
+
+def _walk_body(loop: Loop) -> list[ast.AST]:
+    out: list[ast.AST] = []
     stack: list[ast.AST] = [*loop.body, *loop.orelse]
     while stack:
         node = stack.pop()
-        yield node
+        out.append(node)
         stack.extend(c for c in ast.iter_child_nodes(node) if not isinstance(c, _NESTED))
+    return out
 
 
 def _pairs(stmt: ast.AST) -> Iterator[tuple[str, ast.expr]]:
@@ -46,6 +65,10 @@ def _pairs(stmt: ast.AST) -> Iterator[tuple[str, ast.expr]]:
 
 def accumulations(loop: Loop) -> list[Accumulation]:
     """Additive updates of a single name inside the loop (augmented, plain or tuple-unpacked)."""
+    return list(_memo(loop, "accumulations", lambda: _accumulations(loop)))
+
+
+def _accumulations(loop: Loop) -> list[Accumulation]:
     found = []
     for node in loop_statements(loop):
         if isinstance(node, ast.AugAssign) and isinstance(node.target, ast.Name) and isinstance(node.op, (ast.Add, ast.Sub)):
@@ -62,12 +85,17 @@ def accumulations(loop: Loop) -> list[Accumulation]:
 
 def updates(loop: Loop, name: str) -> list[ast.stmt]:
     """Statements in the loop that rebind `name`."""
-    out: list[ast.stmt] = []
-    for node in loop_statements(loop):
-        if isinstance(node, ast.AugAssign) and isinstance(node.target, ast.Name) and node.target.id == name:
-            out.append(node)
-        elif any(n == name for n, _ in _pairs(node)):
-            out.append(node)  # type: ignore[arg-type]
+    return list(_memo(loop, "updates", lambda: _updates(loop)).get(name, ()))
+
+
+def _updates(loop: Loop) -> dict[str, list[ast.stmt]]:
+    out: dict[str, list[ast.stmt]] = {}
+    for node in sorted((n for n in loop_statements(loop) if isinstance(n, ast.stmt)), key=lambda n: (n.lineno, n.col_offset)):
+        if isinstance(node, ast.AugAssign) and isinstance(node.target, ast.Name):
+            out.setdefault(node.target.id, []).append(node)
+        else:
+            for n in dict.fromkeys(n for n, _ in _pairs(node)):
+                out.setdefault(n, []).append(node)
     return out
 
 
@@ -84,6 +112,10 @@ def new_values(loop: Loop, name: str) -> list[ast.expr]:
 
 def index_names(loop: Loop) -> set[str]:
     """Loop counters: the `for` target names and names stepped by `k += c` inside the loop."""
+    return set(_memo(loop, "index", lambda: _index_names(loop)))
+
+
+def _index_names(loop: Loop) -> set[str]:
     names = set()
     if isinstance(loop, ast.For):
         names |= {n.id for n in ast.walk(loop.target) if isinstance(n, ast.Name)}
@@ -165,9 +197,24 @@ def is_negative_factor(expr: ast.AST) -> bool:
 
 
 def toggles_sign(loop: Loop, name: str) -> bool:
-    """`sign = -sign`, `sign *= -1`, `sign = -1 * sign` in the loop."""
+    """`sign = -sign`, `sign *= -1`, `sign = -1 * sign` each pass: unconditional, the only rebinding."""
     values = new_values(loop, name)
-    return bool(values) and all(_is_flip(v, name) for v in values)
+    if not values or not all(_is_flip(v, name) for v in values) or len(values) != _stores(loop).get(name, 0):
+        return False
+    return all(any(stmt is top for top in loop.body) for stmt in updates(loop, name))
+
+
+def _stores(loop: Loop) -> dict[str, int]:
+    """How many times each name is bound in the loop (unpacking, `for` targets and `with` included)."""
+
+    def count() -> dict[str, int]:
+        out: dict[str, int] = {}
+        for node in loop_statements(loop):
+            if isinstance(node, ast.Name) and isinstance(node.ctx, ast.Store):  # augmented targets included
+                out[node.id] = out.get(node.id, 0) + 1
+        return out
+
+    return _memo(loop, "stores", count)
 
 
 def _is_flip(value: ast.expr, name: str) -> bool:

@@ -6,9 +6,9 @@ from dataclasses import dataclass
 
 from auditor import patterns as p
 from auditor.rule import Context
-from auditor.series_growth import factorial_weight, index_degree, is_integer_term
+from auditor.series_growth import factorial_weight, fixed_point, index_degree, is_integer_term
 from auditor.series_signs import (
-    Accumulation, Loop, accumulations, alternation, index_names, new_values, parity_branches, sign_of, updates,
+    Accumulation, Loop, _memo, accumulations, alternation, index_names, new_values, parity_branches, sign_of, updates,
     value_before,
 )
 
@@ -202,6 +202,17 @@ def _sources(ctx: Context, scope: ast.AST) -> dict[str, ast.AST]:
 def subtracted_twin(ctx: Context, node: ast.AST) -> ast.BinOp | None:
     """`a - b` of two positive series where `node` (a loop or sum call) computes the earlier one."""
     scope = ctx.scope(node)
+    subs = _memo(scope, "name_differences", lambda: [
+        n for n in ast.walk(scope) if isinstance(n, ast.BinOp) and isinstance(n.op, ast.Sub)
+        and isinstance(n.left, ast.Name) and isinstance(n.right, ast.Name)
+    ])
+    if isinstance(node, (ast.For, ast.While)):
+        mine = {a.target for a in accumulations(node)}
+    else:
+        parent = ctx.parent(node)
+        mine = {t.id for t in getattr(parent, "targets", []) if isinstance(t, ast.Name)}
+    if not any({sub.left.id, sub.right.id} & mine for sub in subs):  # type: ignore[attr-defined]
+        return None  # cheap exit: nothing this node computes is ever subtracted
     sources = _sources(ctx, scope)
     if not any(src is node for src in sources.values()):
         return None
@@ -222,3 +233,10 @@ def subtracted_twin(ctx: Context, node: ast.AST) -> ast.BinOp | None:
 
 def _end(node: ast.AST) -> int:
     return getattr(node, "end_lineno", None) or getattr(node, "lineno", 0)
+
+
+def exact_arithmetic(ctx: Context, loop: Loop, acc: Accumulation) -> bool:
+    """Integer terms (exact) or fixed-point integer arithmetic (`>>`, `//`): no float cancellation."""
+    if is_integer_term(ctx, acc.term, integer_names(ctx, loop)) or fixed_point(acc.term):
+        return True
+    return any(fixed_point(v) for name in p.names_in(acc.term) for v in new_values(loop, name))

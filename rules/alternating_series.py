@@ -93,12 +93,13 @@ class AlternatingSeries(Rule):
             yield from self._vectorised(node, ctx)
 
     def _loop(self, loop: ast.For | ast.While, ctx: Context) -> Iterator[Hit]:
-        ints = s.integer_names(ctx, loop)
         for acc in s.accumulations(loop):
             if ctx.enclosing_loops(acc.stmt)[:1] != [loop] or acc.target in s.index_names(loop):
                 continue
             why = s.alternation(ctx, loop, acc)
-            if why is None or s.growth(ctx, loop, acc) is not None or s.is_integer_term(ctx, acc.term, ints):
+            if why is None or s.growth(ctx, loop, acc) is not None:
+                continue
+            if s.exact_arithmetic(ctx, loop, acc):
                 continue
             known = s.recognise_loop(ctx, loop, acc.target)
             rewrite, imports, fix = loop_rewrite(ctx, loop, acc.target, known)

@@ -93,6 +93,31 @@ class DivergentSeries(Rule):
                 return
             yield self._hit(ctx, node, acc, g)
             return
+        if isinstance(node, ast.For):
+            yield from self._table(node, ctx)
+
+    def _table(self, loop: ast.For, ctx: Context) -> Iterator[Hit]:
+        """A literal coefficient table with Bernoulli-type growth, summed over every entry."""
+        table = s.coefficient_table(ctx, loop)
+        if table is None or not s.grows_like_asymptotic(table):
+            return
+        idx = s.index_names(loop)
+        for acc in s.accumulations(loop):
+            names = p.names_in(acc.term)
+            if table.element not in names or not any(isinstance(n, ast.BinOp) and isinstance(n.op, ast.Div)
+                                                     for n in ast.walk(acc.term)):
+                continue
+            xnames = names - idx - {table.element, acc.target}
+            if s.smallest_term_stop(loop, names - idx, idx, xnames):
+                return
+            rewrite = s.guard_explicit(ctx, loop, acc.stmt, acc.target, acc.term, acc.subtract)
+            x = ", ".join(sorted(xnames)) or "x"
+            yield Hit(loop, f"coefficients of `{table.name}` grow like an asymptotic expansion (neighbour ratio "
+                      f"{table.ratios[0]:.2g} rising to {table.ratios[-1]:.2g}) and all are summed whatever {x} is, "
+                      f"so for small |{x}| the terms past the smallest one add error; stop at the smallest term "
+                      "or shift the argument up first (recurrence) before using the expansion",
+                      Severity.NOTE, rewrite)
+            return
 
     def _hit(self, ctx: Context, loop: ast.For | ast.While, acc: s.Accumulation, g: s.Growth) -> Hit:
         x = _argument(g) or "x"

@@ -169,3 +169,39 @@ def binomial_weights(p, n):
         w += t
         t *= (n - k) / (k + 1) * p
     return w
+
+
+#: Stirling-series coefficients B(2k) / (2k (2k - 1)) for the lens-heating log-gamma model
+STIRLING = (1 / 12, -1 / 360, 1 / 1260, -1 / 1680, 1 / 1188, -691 / 360360, 1 / 156, -3617 / 122400)
+#: Chebyshev coefficients of the feed-horn pattern fit (they shrink: a convergent expansion)
+HORN_FIT = (0.91, -0.27, 0.064, -0.011, 0.0016, -0.00021, 0.000024)
+
+
+def stirling_correction(z):
+    s = 0.0
+    zp = z
+    for c in STIRLING:  # expect: divergent-series
+        s += c / zp
+        zp *= z * z
+    return s
+
+
+def stirling_correction_stopped(z):
+    s, prev = 0.0, float("inf")
+    zp = z
+    for c in STIRLING:  # ok: divergent-series
+        term = c / zp
+        if abs(term) > abs(prev):
+            break
+        s += term
+        prev = term
+        zp *= z * z
+    return s
+
+
+def horn_pattern(u):
+    s, up = 0.0, 1.0
+    for c in HORN_FIT:  # ok: divergent-series
+        s += c * up
+        up *= u
+    return s

@@ -146,5 +146,6 @@ class FiniteDifferenceStep(Rule):
         cause = (f"rounding error eps/h is about {EPS / h ** deriv:.0e}" if small
                  else f"truncation error grows like h**{order} = {h ** order:.0e}")
         yield Hit(node, f"with h = {h:.3g} the {cause}, leaving about {left:.0f} correct digits of the {kind} difference "
-                  f"(about {most:.0f} at the best step {_BEST[kind]} times max(|x|, 1)); scale h that way",
+                  f"(about {most:.0f} at the best step {_BEST[kind]} times max(|x|, 1)); scale h that way and "
+                  "divide by the representable step h = (x + h) - x",
                   severity=None if small else Severity.NOTE)

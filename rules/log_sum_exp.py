@@ -6,7 +6,8 @@ values near -1000, although the true result is near max(v). The softmax `exp(v) 
 gives nan (inf / inf) or 0 / 0 in the same ranges. Subtracting the maximum first,
 m + log(sum(exp(v - m))), is exact in real arithmetic and keeps every exponent at or below 0,
 with the largest term exactly 1. Where SciPy is in use, `scipy.special.logsumexp` and
-`scipy.special.softmax` do this. A max-shifted form is not flagged.
+`scipy.special.softmax` do this; the two-term `log(exp(a) + exp(b))` is `logaddexp(a, b)`.
+A max-shifted form is not flagged.
 """
 from __future__ import annotations
 
@@ -57,6 +58,31 @@ def summed_exp(ctx: Context, expr: ast.expr) -> tuple[ast.Call, ast.Call, ast.co
     return (call, inner, None) if inner is not None else None
 
 
+def exp_pair(ctx: Context, expr: ast.expr) -> tuple[ast.Call, ast.Call] | None:
+    """The two exp calls of `exp(a) + exp(b)` (directly or through a local), else None."""
+    expr = ctx.origin(expr)
+    if not p.is_add(expr):
+        return None
+    assert isinstance(expr, ast.BinOp)
+    a, b = unshifted_exp(ctx, expr.left), unshifted_exp(ctx, expr.right)
+    return (a, b) if a is not None and b is not None else None
+
+
+def logaddexp_text(ctx: Context, log: ast.Call, a: ast.Call, b: ast.Call) -> tuple[str | None, tuple[str, ...]]:
+    """np.logaddexp(a, b); for math, max(a, b) + log1p(exp(-|a - b|)), equal in real arithmetic."""
+    module = p.callee_module(ctx, a)
+    x, y = p.text(ctx, a.args[0]), p.text(ctx, b.args[0])
+    if module == "numpy":
+        func, imports = p.spelled(ctx, "numpy", "logaddexp")
+        return f"{func}({x}, {y})", imports
+    if module == "math":
+        log1p, imports = p.spelled(ctx, "math", "log1p")
+        exp = p.text(ctx, a.func)
+        diff = f"{p.operand_text(ctx, a.args[0])} - {p.operand_text(ctx, b.args[0])}"
+        return f"max({x}, {y}) + {log1p}({exp}(-abs({diff})))", imports
+    return None, ()
+
+
 def plain(call: ast.Call) -> bool:
     """A sum with nothing but its data argument (no axis, no dtype)."""
     return not call.keywords and len(call.args) <= 1
@@ -82,6 +108,8 @@ class LogSumExp(Rule):
                 True, "scipy.special.softmax(v)"),
         Example("from scipy.special import logsumexp\nimport numpy as np\ndef f(w):\n    return np.log(np.exp(w).sum())\n",
                 True, "logsumexp(w)"),
+        Example("import numpy as np\ndef pair(a, b):\n    return np.log(np.exp(a) + np.exp(b))\n", True,
+                "np.logaddexp(a, b)"),
         Example("import numpy as np\ndef total(v):\n    m = np.max(v)\n    return m + np.log(np.sum(np.exp(v - m)))\n", False),
         Example("import numpy as np\ndef probs(v):\n    e = np.exp(v - v.max())\n    return e / e.sum()\n", False),
         Example("import numpy as np\ndef f(v):\n    return np.log(np.sum(v))\n", False),
@@ -90,11 +118,16 @@ class LogSumExp(Rule):
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
         if isinstance(node, ast.Call) and ctx.is_call(node, "log") and p.single_arg(node) is not None:
             found = summed_exp(ctx, node.args[0])
+            pair = exp_pair(ctx, node.args[0]) if found is None else None
             if found is not None:
                 rewrite, imports = self._lse_text(ctx, node, *found)
-                fix = rewrite or "the max-shifted form m + log(sum(exp(v - m))) with m = max(v)"
-                yield Hit(node, f"exp overflows above 709.8 and underflows below -745, so this returns inf or -inf "
-                          f"where the answer is near max(v); use {fix}", rewrite=rewrite, imports=imports)
+            elif pair is not None:
+                rewrite, imports = logaddexp_text(ctx, node, *pair)
+            else:
+                return
+            fix = rewrite or "the max-shifted form m + log(sum(exp(v - m))) with m = max(v)"
+            yield Hit(node, f"exp overflows above 709.8 and underflows below -745, so this returns inf or -inf "
+                      f"where the answer is near max(v); use {fix}", rewrite=rewrite, imports=imports)
         elif isinstance(node, ast.BinOp) and isinstance(node.op, ast.Div):
             top = unshifted_exp(ctx, node.left)
             found = summed_exp(ctx, node.right) if top is not None else None

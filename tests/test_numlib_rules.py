@@ -130,6 +130,16 @@ def test_log_sum_exp_rewrite_is_finite_and_exact(code):
     assert fixed == pytest.approx(scipy.special.logsumexp(LARGE), rel=1e-14)  # scipy.special as a second reference
 
 
+@pytest.mark.parametrize("code", [
+    "import math\ndef f(a, b):\n    s = math.exp(a) + math.exp(b)\n    return math.log(s)\n",
+    "import numpy as np\ndef f(a, b):\n    return np.log(np.exp(a) + np.exp(b))\n",
+])
+def test_two_term_log_sum_exp_rewrite(code):
+    fixed = run(rewritten(code, "log-sum-exp"), "f", 1000.0, 999.0)
+    assert fixed == pytest.approx(_lse_reference([1000.0, 999.0]), rel=1e-15)
+    assert not findings("import math\ndef f(x):\n    return math.log(1 + math.exp(x))\n", "log-sum-exp")
+
+
 def test_softmax_rewrite_matches_scipy():
     code = "import numpy as np\ndef f(v):\n    e = np.exp(v)\n    return e / e.sum()\n"
     v = np.array([800.0, 799.0, -5.0])

@@ -162,3 +162,11 @@ def peak_reading(readings):
 
 def double_total(readings):
     return np.cumsum(readings, dtype=np.float64)  # ok: low-precision-accumulator
+
+
+def two_strain_evidence(ll_a, ll_b):
+    return np.log(np.exp(ll_a) + np.exp(ll_b))  # expect: log-sum-exp
+
+
+def two_strain_stable(ll_a, ll_b):
+    return np.logaddexp(ll_a, ll_b)  # ok: log-sum-exp

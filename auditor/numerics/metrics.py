@@ -120,11 +120,14 @@ def condition_log10(base: Any, shifted: Sequence[Any]) -> float | None:
     if base == 0:
         return math.inf if any(s != 0 for s in shifted) else None
     raw = getattr(base, "_mpf_", None)
-    if len(shifted) == 1 and raw is not None and getattr(shifted[0], "_mpf_", None) is not None:
-        diff = libmp.mpf_sub(shifted[0]._mpf_, raw, 0)
-        return -math.inf if diff == libmp.fzero else _log10_raw(libmp.mpf_div(diff, raw, 53, "n")) + STEP_BITS * math.log10(2)
-    else:
-        total = sum(abs(s - base) for s in shifted) / abs(base)
+    if raw is not None and all(getattr(x, "_mpf_", None) is not None for x in shifted):
+        # Real values: each relative difference exact, divided to 53 bits (mpmath.libmp directly).
+        parts = [libmp.mpf_div(libmp.mpf_sub(x._mpf_, raw, 0), raw, 53, "n") for x in shifted]
+        total_raw = parts[0] if len(parts) == 1 else libmp.mpf_sum([libmp.mpf_abs(q) for q in parts], 53, "n")
+        if total_raw == libmp.fzero:
+            return -math.inf
+        return _log10_raw(libmp.mpf_abs(total_raw)) + STEP_BITS * math.log10(2)
+    total = sum(abs(x - base) for x in shifted) / abs(base)
     if total == 0:
         return -math.inf
     return _log10(total) + STEP_BITS * math.log10(2)

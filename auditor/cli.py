@@ -149,18 +149,18 @@ def run_scan_like(args: argparse.Namespace) -> int:
         from auditor.scan import scan_paths
 
         report = scan_paths(args.paths, config)
+        if config.changed_since:
+            from auditor.changed import keep_changed
+
+            report = keep_changed(report, config.changed_since)
     elif args.command == "measure":
         from auditor.measure import measure_paths
 
-        report = measure_paths(args.paths, config, inputs=args.inputs)
+        report = measure_paths(args.paths, config, inputs=args.inputs)  # limits to changed lines before measuring
     else:
         from auditor.fix import run_fix
 
         return run_fix(args.paths, config, write=args.write, inputs=args.inputs)
-    if config.changed_since:
-        from auditor.changed import keep_changed
-
-        report = keep_changed(report, config.changed_since)
     if args.write_baseline:
         write_baseline(report, args.write_baseline)
     emit(render(report, config.format, color=not config.output and _color(sys.stdout)), config.output)

@@ -248,8 +248,6 @@ def measure_one(finding: Finding, source_text: str | None, project: Project) -> 
     """A finding with its measurement, verified rewrite and adjusted severity (never raises)."""
     if source_text is None:
         return finding.with_(measurement=not_measured("the source could not be read again"))
-    if getattr(finding, "cell", None) is not None:
-        return finding.with_(measurement=not_measured("notebook cells are not measured yet"))
     try:
         rewrite = finding.rewrite
         fm = measure_finding(finding, source_text, project.config, rewrite.text if rewrite else None,
@@ -277,25 +275,69 @@ def _recorded(inputs: str | None) -> Mapping[str, list[dict[str, float]]]:
     return load_recorded(inputs)
 
 
-def measure_paths(paths: Sequence[str], config: Config, inputs: str | None = None) -> Report:
-    """`auditor measure`: the static pass, then every finding measured."""
-    from auditor.scan import scan_paths
+def _measure_file(path: str, group: Sequence[Finding], project: Project) -> list[Finding]:
+    """Measure one file's findings (notebook findings in the joined program of their cells)."""
+    if any(f.cell is not None for f in group):
+        from auditor.notebook import NotebookError, from_program, program_source, to_program
 
-    started = time.perf_counter()
-    report = scan_paths(paths, config)
-    project = Project(config, _recorded(inputs))
-    sources: dict[str, str | None] = {}
-    findings = []
-    from auditor.progress import progress
+        try:
+            program = program_source(path if Path(path).exists() else (project.config.root or Path.cwd()) / path)
+        except NotebookError as exc:
+            return [f.with_(measurement=not_measured(str(exc))) for f in group]
+        return [from_program(measure_one(to_program(f, program).with_(cell=None), program.text, project), f)
+                for f in group]
+    source = _read(path, project.config)
+    return [measure_one(f, source, project) for f in group]
 
-    with progress(len(report.findings), "measuring findings") as bar:  # drawn only when stderr is a terminal
-        for f in report.findings:
-            if f.path not in sources:
-                sources[f.path] = _read(f.path, config)
-            findings.append(measure_one(f, sources[f.path], project))
-            bar.advance()
-    seconds = round(report.stats.seconds + time.perf_counter() - started, 3)
-    stats = Stats(report.stats.files, report.stats.lines, seconds)
+
+def _measure_batch(batch: Sequence[tuple[str, Sequence[Finding]]], project: Project) -> list[Finding]:
+    return [m for path, group in batch for m in _measure_file(path, group, project)]
+
+
+def _groups(findings: Sequence[Finding]) -> list[tuple[str, list[Finding]]]:
+    by_path: dict[str, list[Finding]] = {}
+    for f in findings:
+        by_path.setdefault(f.path, []).append(f)
+    return list(by_path.items())
+
+
+def measure_report(report: Report, config: Config, inputs: str | None = None) -> Report:
+    """The dynamic pass over every finding of a static report (in worker processes with --jobs)."""
+    from concurrent.futures import ProcessPoolExecutor
     from dataclasses import replace
 
-    return replace(report, findings=tuple(findings), stats=stats)
+    from auditor.progress import progress
+
+    started = time.perf_counter()
+    project = Project(config, _recorded(inputs))
+    groups = _groups(report.findings)
+    measured: list[Finding] = []
+    with progress(len(report.findings), "measuring findings") as bar:  # drawn only when stderr is a terminal
+        if config.jobs > 1 and len(groups) > 1:
+            with ProcessPoolExecutor(max_workers=config.jobs) as pool:
+                futures = [pool.submit(_measure_batch, [g], project) for g in groups]
+                for future in futures:
+                    part = future.result()
+                    measured.extend(part)
+                    for _ in part:
+                        bar.advance()
+        else:
+            for path, group in groups:
+                for m in _measure_file(path, group, project):
+                    measured.append(m)
+                    bar.advance()
+    seconds = round(report.stats.seconds + time.perf_counter() - started, 3)
+    stats = Stats(report.stats.files, report.stats.lines, seconds)
+    return replace(report, findings=tuple(sorted(measured, key=Finding.sort_key)), stats=stats)
+
+
+def measure_paths(paths: Sequence[str], config: Config, inputs: str | None = None) -> Report:
+    """`auditor measure`: the static pass (limited to changed lines with --changed-since), then every finding measured."""
+    from auditor.scan import scan_paths
+
+    report = scan_paths(paths, config)
+    if config.changed_since:
+        from auditor.changed import keep_changed
+
+        report = keep_changed(report, config.changed_since)
+    return measure_report(report, config, inputs)

@@ -9,13 +9,18 @@ from __future__ import annotations
 
 import ast
 import bisect
-from collections.abc import Iterable, Sequence
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import libcst as cst
 
+from auditor.import_needs import import_conflict, module_bindings, needed_imports
 from auditor.model import Span
 from auditor.splice import LINE_BREAK, indent_variants, line_indent, line_starts, newline_of, offsets, splice
+
+
+#: a module's statement list as libcst types it
+Body = list[cst.SimpleStatementLine | cst.BaseCompoundStatement]
 
 
 @dataclass(frozen=True, slots=True)
@@ -87,7 +92,7 @@ def apply_edits(source: str, edits: Sequence[Edit]) -> Outcome:
         text = splice(text, p.start, p.end, p.text)
     spliced = text
     applied = tuple(p.edit for p in placed)
-    needed = _needed_imports(applied, bound)
+    needed = needed_imports((e.imports for e in applied), bound)
     if needed:
         try:
             text = add_imports(text, needed)
@@ -119,6 +124,15 @@ def _position(text: str, offset: int) -> tuple[int, int]:
     return line, offset - starts[line - 1] + 1
 
 
+def rewrite_one(source: str, span: Span, text: str, imports: Sequence[str] = ()) -> tuple[str, Span] | str:
+    """`source` with one rewrite applied exactly as `fix` applies it, and the span the replacement
+    now occupies (for measuring the rewritten unit); or why it cannot be applied."""
+    out = apply_edits(source, [Edit(span, text, tuple(imports))])
+    if not out.changed:
+        return out.error or (out.skipped[0].reason if out.skipped else "nothing to apply")
+    return out.text, out.new_spans[0]
+
+
 def _refuse(source: str, edits: Sequence[Edit], skipped: list[Skipped], why: str) -> Outcome:
     done = {id(s.edit) for s in skipped}
     rest = [Skipped(e, why) for e in edits if id(e) not in done]
@@ -131,7 +145,7 @@ def _locate(source: str, edits: Sequence[Edit], bound: dict[str, str], skipped: 
     out: list[_Placed] = []
     for edit in edits:
         where = offsets(source, edit.span, starts)
-        why = _import_conflict(edit, bound)
+        why = import_conflict(edit.imports, bound)
         if where is None:
             why = "its span lies outside the file"
         elif edit.original is not None and source[where[0] : where[1]] != edit.original:
@@ -172,8 +186,9 @@ def _without_overlaps(located: list[_Placed], skipped: list[Skipped]) -> list[_P
         last = kept[-1] if kept else None
         if last is not None and (p.start < last.end or (p.start, p.end) == (last.start, last.end)):
             same = (p.start, p.end, p.edit.text) == (last.start, last.end, last.edit.text)
-            reason = "duplicate of" if same else "overlaps"
-            skipped.append(Skipped(p.edit, f"{reason} {last.edit.label or 'another rewrite'}"))
+            other = last.edit.label or "another rewrite"
+            why = f"duplicate of {other}" if same else f"overlaps {other}, which is applied; run fix again for this one"
+            skipped.append(Skipped(p.edit, why))
             continue
         kept.append(p)
     return kept
@@ -203,72 +218,6 @@ def _continuation_depth(text: str) -> int | None:
     """Least indentation of the non-blank lines after the first (None for one line)."""
     rest = [ln for ln in LINE_BREAK.split(text)[1:] if ln.strip()]
     return min((len(ln) - len(ln.lstrip(" \t")) for ln in rest), default=None)
-
-
-# -- imports ---------------------------------------------------------------------------------
-
-
-def import_bindings(statement: str) -> dict[str, str] | None:
-    """{'np': 'numpy'} for 'import numpy as np'; None unless it is one plain import statement."""
-    try:
-        body = ast.parse(statement).body
-    except SyntaxError:
-        return None
-    if len(body) != 1 or not isinstance(body[0], (ast.Import, ast.ImportFrom)):
-        return None
-    return _bindings_of(body[0])
-
-
-def _bindings_of(node: ast.Import | ast.ImportFrom) -> dict[str, str]:
-    if isinstance(node, ast.Import):
-        out: dict[str, str] = {}
-        for a in node.names:
-            head = a.name.partition(".")[0]
-            out[a.asname or head] = a.name if a.asname else head
-            if not a.asname and a.name != head:
-                out[a.name] = a.name  # `import scipy.special` also loads the submodule: remember it
-        return out
-    base = "." * node.level + (node.module or "")
-    return {(a.asname or a.name): f"{base}.{a.name}" for a in node.names if a.name != "*"}
-
-
-def module_bindings(tree: ast.Module) -> dict[str, str]:
-    """Names bound by imports at module level (inside top-level if/try too, not in functions)."""
-    out: dict[str, str] = {}
-    stack: list[ast.AST] = [tree]
-    while stack:
-        for child in ast.iter_child_nodes(stack.pop()):
-            if isinstance(child, (ast.Import, ast.ImportFrom)):
-                for local, qual in _bindings_of(child).items():
-                    out.setdefault(local, qual)
-            elif isinstance(child, ast.stmt) and not isinstance(
-                child, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)
-            ):
-                stack.append(child)
-    return out
-
-
-def _import_conflict(edit: Edit, bound: dict[str, str]) -> str:
-    for statement in edit.imports:
-        names = import_bindings(statement)
-        if names is None:
-            return f"it asks for an unusable import {statement!r}"
-        for local, qual in names.items():
-            if bound.get(local, qual) != qual:
-                return f"{statement!r} would rebind {local!r}, which means {bound[local]!r} here"
-    return ""
-
-
-def _needed_imports(applied: Iterable[Edit], bound: dict[str, str]) -> list[str]:
-    needed: list[str] = []
-    have = dict(bound)
-    for edit in applied:
-        for statement in edit.imports:
-            names = import_bindings(statement) or {}
-            if any(have.get(local) != qual for local, qual in names.items()):
-                needed.append(statement.strip())
-                have.update(names)
-    return needed
 
 
 def add_imports(text: str, statements: Sequence[str]) -> str:
@@ -313,23 +262,23 @@ def _is_docstring(stmt: cst.BaseStatement) -> bool:
             and isinstance(stmt.body[0].value, (cst.SimpleString, cst.ConcatenatedString)))
 
 
-def _leading_block(body: list[cst.BaseStatement]) -> tuple[int, list[int]]:
+def _leading_block(body: Body) -> tuple[int, list[int]]:
     """(first index after the docstring and __future__ imports, indexes of the imports that follow)."""
     lo = 1 if body and _is_docstring(body[0]) else 0
     while lo < len(body) and _is_future(_import_line(body[lo])):
         lo += 1
-    block = []
+    block: list[int] = []
     while lo + len(block) < len(body) and _import_line(body[lo + len(block)]) is not None:
         block.append(lo + len(block))
     return lo, block
 
 
-def _insert_import(body: list[cst.BaseStatement], new: cst.SimpleStatementLine) -> list[cst.BaseStatement]:
+def _insert_import(body: Body, new: cst.SimpleStatementLine) -> Body:
     lo, block = _leading_block(body)
     node = _import_line(new)
     assert node is not None
     key = _sort_key(node)
-    before = [i for i in block if _sort_key(_import_line(body[i])) <= key]  # type: ignore[arg-type]
+    before = [i for i in block if _sort_key(_import_line(body[i]) or node) <= key]
     if before:
         return [*body[: before[-1] + 1], new, *body[before[-1] + 1 :]]
     if lo >= len(body):
@@ -343,7 +292,7 @@ def _insert_import(body: list[cst.BaseStatement], new: cst.SimpleStatementLine) 
     return [*body[:lo], new.with_changes(leading_lines=lines[:blanks]), head, *body[lo + 1 :]]
 
 
-def _merge_from_import(body: list[cst.BaseStatement], new: cst.SimpleStatementLine) -> list[cst.BaseStatement] | None:
+def _merge_from_import(body: Body, new: cst.SimpleStatementLine) -> Body | None:
     """Add `name` to an existing one-line `from M import a, b` instead of a second `from M` line."""
     node = _import_line(new)
     if not isinstance(node, cst.ImportFrom) or isinstance(node.names, cst.ImportStar):
@@ -355,6 +304,6 @@ def _merge_from_import(body: list[cst.BaseStatement], new: cst.SimpleStatementLi
             names = list(old.names)
             names[-1] = names[-1].with_changes(comma=cst.Comma(whitespace_after=cst.SimpleWhitespace(" ")))
             names.extend(a.with_changes(comma=cst.MaybeSentinel.DEFAULT) for a in node.names)
-            merged = stmt.with_changes(body=[old.with_changes(names=names)])  # type: ignore[attr-defined]
+            merged = stmt.with_changes(body=[old.with_changes(names=names)])
             return [*body[:i], merged, *body[i + 1 :]]
     return None

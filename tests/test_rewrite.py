@@ -13,7 +13,8 @@ from hypothesis import strategies as st
 
 from auditor.fix import FilePlan, read_python, write_plan
 from auditor.model import Span
-from auditor.rewrite import Edit, apply_edits, module_bindings
+from auditor.import_needs import module_bindings
+from auditor.rewrite import Edit, apply_edits, rewrite_one
 
 
 def span_of_text(source: str, needle: str, nth: int = 0) -> Span:
@@ -130,7 +131,7 @@ def test_nested_edits_keep_the_outer_one():
     out = apply_edits(src, [inner, outer])
     assert out.text == "y = a * a - b * b\n"
     assert [s.edit.label for s in out.skipped] == ["inner"]
-    assert "overlaps outer" in out.skipped[0].reason
+    assert out.skipped[0].reason.startswith("overlaps outer")
 
 
 def test_crossing_edits_keep_the_first_and_duplicates_apply_once():
@@ -139,7 +140,7 @@ def test_crossing_edits_keep_the_first_and_duplicates_apply_once():
     out = apply_edits(src, [second, first, first])
     assert out.text == "y = fsum1 + c\n"
     reasons = sorted(s.reason for s in out.skipped)
-    assert reasons == ["duplicate of first", "overlaps first"]
+    assert reasons == ["duplicate of first", "overlaps first, which is applied; run fix again for this one"]
 
 
 def test_multi_line_expression_span():
@@ -340,3 +341,10 @@ def test_a_guarded_rewrite_already_in_place_is_not_nested_again():
     assert out.skipped[0].reason.startswith("already rewritten")
     first = "def root(a, b, c, d):\n    return (-b + math.sqrt(d)) / (2.0 * a)\n"
     assert apply_edits(first, [edit(first, inner, guarded)]).applied  # the first time it applies
+
+
+def test_rewrite_one_gives_the_text_and_the_new_span():
+    src = "def f(x):\n    return math.exp(x) - 1.0  # gain\n"
+    got = rewrite_one(src, span_of_text(src, "math.exp(x) - 1.0"), "math.expm1(x)", ("import math",))
+    assert got == ("import math\n\n\ndef f(x):\n    return math.expm1(x)  # gain\n", Span(5, 12, 5, 25))
+    assert "does not parse" in rewrite_one(src, span_of_text(src, "math.exp(x)"), "math.expm1(")

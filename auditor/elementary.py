@@ -23,13 +23,55 @@ class Operands:
 def difference_operands(ctx: Context, node: ast.AST) -> Operands | None:
     """Operands of `a - b`, or of `t -= b` where `t` was last assigned a value in this scope."""
     if isinstance(node, ast.BinOp) and isinstance(node.op, ast.Sub):
-        return Operands(ctx.origin(node.left), ctx.origin(node.right), node.left, node.right, False)
+        return Operands(origin_before(ctx, node.left, node), origin_before(ctx, node.right, node), node.left, node.right, False)
     if isinstance(node, ast.AugAssign) and isinstance(node.op, ast.Sub) and isinstance(node.target, ast.Name):
-        before = ctx.origin(node.target)
+        before = origin_before(ctx, node.target, node)
         if before is node.target:
             return None
-        return Operands(before, ctx.origin(node.value), node.target, node.value, True)
+        return Operands(before, origin_before(ctx, node.value, node), node.target, node.value, True)
     return None
+
+
+def origin_before(ctx: Context, expr: ast.expr, use: ast.AST) -> ast.expr:
+    """`ctx.origin`, refusing a value from the very statement being evaluated (`a, b = b - a, a - b`)."""
+    value = ctx.origin(expr)
+    if value is not expr and any(anc is value for anc in ctx.ancestors(use)):
+        return expr
+    return value
+
+
+def tokens(ctx: Context, expr: ast.AST) -> set[str]:
+    """The variables an expression reads, with `obj.attr` and `arr[i]` as tokens of their own.
+
+    `x[0]` and `x[1]`, or `self.a` and `self.b`, are different quantities, not one variable `x`.
+    """
+    out: set[str] = set()
+    stack: list[ast.AST] = [expr]
+    while stack:
+        node = stack.pop()
+        if isinstance(node, (ast.Attribute, ast.Subscript)) and _variable_base(ctx, node):
+            out.add(ast.dump(node))
+        elif isinstance(node, ast.Name):
+            if ctx.qualname(node) is None:
+                out.add(node.id)
+        else:
+            stack.extend(ast.iter_child_nodes(node))
+    return out
+
+
+def _variable_base(ctx: Context, node: ast.AST) -> bool:
+    while isinstance(node, (ast.Attribute, ast.Subscript)):
+        node = node.value
+    return not (isinstance(node, ast.Name) and ctx.qualname(node) is not None)
+
+
+def related(ctx: Context, a: ast.AST, b: ast.AST) -> bool:
+    """True when a and b are computed from the same variables, one set containing the other.
+
+    `x + h` and `x`, `p` and `1 - p` are related; `f(x, c)` and `f(b, c)` share only a parameter.
+    """
+    ta, tb = tokens(ctx, a), tokens(ctx, b)
+    return bool(ta & tb) and (ta <= tb or tb <= ta)
 
 
 def stable_origin(ctx: Context, value: ast.expr, use: ast.AST) -> bool:

@@ -54,12 +54,14 @@ class AtanOfRatio(Rule):
         if arg is None:
             return
         ratio = ctx.origin(arg)
+        module = p.callee_module(ctx, node) or "math"
         if not (isinstance(ratio, ast.BinOp) and isinstance(ratio.op, ast.Div)):
             return
         y, x = ratio.left, ratio.right
+        if module == "cmath" or any(isinstance(n, ast.Constant) and isinstance(n.value, complex) for n in ast.walk(ratio)):
+            return  # complex arctangent: no quadrant to lose, and atan2 takes no complex arguments
         if not reads_variables(ctx, y) or not reads_variables(ctx, x):
             return
-        module = p.callee_module(ctx, node) or "math"
         if not is_nonnegative(ctx, x):
             yield Hit(node, "atan(y / x) is off by pi when x < 0 and divides by zero at x = 0; use atan2(y, x) "
                       "if the angle of the point (x, y) is meant")

@@ -5,7 +5,8 @@ apart: the complement keeps only the digits of the tail probability above that s
 standard normal, 1 - cdf(5) keeps about nine digits, and beyond 8.3 the cdf rounds to 1 and the
 "probability" is 0 (the true value is 5e-17 and falls fast). p-values, false-alarm rates and
 reliability figures live exactly there. Every library that offers the cdf offers its complement
-computed directly: the survival function `.sf` of scipy.stats distributions, erfc for erf,
+computed directly: the survival function `.sf` of scipy.stats distributions (`.ccdf` for the newer
+distribution classes such as `stats.Normal`), erfc for erf,
 gammaincc for gammainc, the `...c` twins of scipy.special's cdfs, and ndtr(-x) for ndtr(x).
 `1 + erf(x)` is the same loss in the lower tail (x -> -inf) and equals erfc(-x).
 """
@@ -17,7 +18,7 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
-from auditor.elementary import difference_operands, spelled_like, stable_origin
+from auditor.elementary import difference_operands, reads_variables, spelled_like, stable_origin
 
 #: scipy.special distribution functions and their complements
 _TWINS = {"gammainc": "gammaincc", "betainc": "betaincc", "chdtr": "chdtrc", "pdtr": "pdtrc", "bdtr": "bdtrc",
@@ -28,23 +29,31 @@ _MIRRORED = {"ndtr": 0, "stdtr": 1}
 _HAS_ERFC = ("math", "scipy.special", "mpmath", "torch", "torch.special", "jax.scipy.special")
 
 
-def is_stats_distribution(ctx: Context, receiver: ast.expr) -> bool:
-    """`norm`, `stats.gamma`, a frozen `stats.norm(0, 2)`, or a local holding one."""
+def complement_method(ctx: Context, receiver: ast.expr) -> str | None:
+    """'sf' for `norm`, `stats.gamma`, a frozen `stats.norm(0, 2)` or a local holding one; 'ccdf' for the
+    newer distribution classes (`stats.Normal(mu=0, sigma=1)`); None otherwise (multivariate laws have neither)."""
     for candidate in (receiver, ctx.origin(receiver)):
         if isinstance(candidate, ast.Call):
             candidate = candidate.func
-        if (ctx.qualname(candidate) or "").startswith("scipy.stats."):
-            return True
-    return False
+        name = ctx.qualname(candidate) or ""
+        if name.startswith("scipy.stats."):
+            last = name.rpartition(".")[2]
+            if last.startswith("multivariate") or "." in name[len("scipy.stats."):]:
+                return None
+            return "ccdf" if last[:1].isupper() else "sf"
+    return None
 
 
 def complement(ctx: Context, value: ast.expr) -> tuple[ast.expr, tuple[str, ...]] | None:
     """The directly computed complement 1 - value, when value is a known distribution function."""
     if not isinstance(value, ast.Call):
         return _half_erf(ctx, value)
+    if not any(reads_variables(ctx, a) for a in [*value.args, *(k.value for k in value.keywords)]):
+        return None  # a constant: nothing varies into the tail
     func = value.func
-    if isinstance(func, ast.Attribute) and func.attr == "cdf" and is_stats_distribution(ctx, func.value):
-        return ast.Call(ast.Attribute(func.value, "sf"), value.args, value.keywords), ()
+    method = complement_method(ctx, func.value) if isinstance(func, ast.Attribute) and func.attr == "cdf" else None
+    if isinstance(func, ast.Attribute) and method is not None:
+        return ast.Call(ast.Attribute(func.value, method), value.args, value.keywords), ()
     family, module = ctx.family(value), p.callee_module(ctx, value) or ""
     if family in ("erf", "erfc") and module in _HAS_ERFC and p.single_arg(value) is not None:
         name, imports = spelled_like(ctx, module, _TWINS[family])
@@ -88,7 +97,8 @@ def one_plus_erf(ctx: Context, node: ast.expr) -> ast.Call | None:
         return None
     (a, _), (b, _) = terms
     call = b if p.is_one(a) else a if p.is_one(b) else None
-    if isinstance(call, ast.Call) and ctx.family(call) == "erf" and p.single_arg(call) is not None \
+    arg = p.single_arg(call) if isinstance(call, ast.Call) else None
+    if isinstance(call, ast.Call) and ctx.family(call) == "erf" and arg is not None and reads_variables(ctx, arg) \
             and (p.callee_module(ctx, call) or "") in _HAS_ERFC:
         return call
     return None

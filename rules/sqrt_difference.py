@@ -16,7 +16,7 @@ from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
 from auditor.elementary import (
-    difference_operands, is_discriminant, reads_variables, root_sum, sqrt_argument, stable_origin, variables,
+    difference_operands, is_discriminant, reads_variables, related, root_sum, sqrt_argument, stable_origin,
 )
 
 
@@ -83,7 +83,7 @@ class SqrtDifference(Rule):
             if p.same_expr(a, b) or not (reads_variables(ctx, a) or reads_variables(ctx, b)):
                 return None
             literal_one = not (sl[1] and sr[1])
-            if not literal_one and not (variables(ctx, a) & variables(ctx, b)):
+            if not literal_one and not related(ctx, a, b):
                 return None  # independent radicands: nothing says they are close
             numerator = alg.difference(a, b)
             one_plus = any(p.is_one(t) for t, _ in alg.signed_terms(a if sl[1] else b))

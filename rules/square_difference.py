@@ -2,7 +2,9 @@
 
 Each square carries a rounding error relative to its own size, x**2; when x and y are close the
 difference is far smaller than the squares and those errors dominate it: with y = x*(1 - 1e-8)
-about eight digits are lost. `1 - x*x` near |x| = 1 is the same loss. The factored form
+about eight digits are lost. `1 - x*x` near |x| = 1 is the same loss; it is reported under a square
+root (sqrt(1 - c*c) for a sine, sqrt(1 - (v/c)**2) for a Lorentz factor), where it is usually
+evaluated near 1, and left alone in plain polynomials. The factored form
 (x - y)*(x + y) subtracts the inputs themselves, which is exact when they are within a factor of
 two of each other (Sterbenz), so the result is accurate to a few units in the last place.
 For `1 - cos(t)**2` the identity sin(t)**2 is better still.
@@ -16,7 +18,7 @@ from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
 from auditor.elementary import (
-    difference_operands, reads_variables, spelled_like, square_base, stable_origin, variables,
+    difference_operands, reads_variables, related, spelled_like, square_base, stable_origin,
 )
 
 #: 1 - cos(t)**2 = sin(t)**2 and 1 - sin(t)**2 = cos(t)**2
@@ -50,9 +52,13 @@ def from_reduction(ctx: Context, base: ast.expr) -> bool:
     return isinstance(origin, ast.Call) and ctx.family(origin) in ("mean", "sum", "average", "var", "std")
 
 
-def value_names(ctx: Context, expr: ast.expr) -> set[str]:
-    """Names an expression reads, directly or through the local it names."""
-    return variables(ctx, expr) | variables(ctx, ctx.origin(expr))
+def under_root(ctx: Context, node: ast.AST) -> bool:
+    """True for the radicand of `sqrt(1 - x*x)` or `(1 - x*x) ** 0.5`."""
+    parent = ctx.parent(node)
+    if isinstance(parent, ast.Call) and ctx.family(parent) == "sqrt":
+        return True
+    return isinstance(parent, ast.BinOp) and isinstance(parent.op, ast.Pow) and parent.left is node \
+        and p.is_number(parent.right, 0.5)
 
 
 class SquareDifference(Rule):
@@ -91,7 +97,10 @@ class SquareDifference(Rule):
             return
         if (p.is_integer_valued(ctx, x) and p.is_integer_valued(ctx, y)) or from_reduction(ctx, x) or from_reduction(ctx, y):
             return
-        correlated = bool(value_names(ctx, x) & value_names(ctx, y))
+        one = p.is_one(x) or p.is_one(y)
+        if one and pythagoras(ctx, x, y) is None and not under_root(ctx, node):
+            return  # 1 - x*x in a polynomial is common and harmless; under a root (a cosine, a Lorentz factor) it bites
+        correlated = related(ctx, x, y) or related(ctx, ctx.origin(x), ctx.origin(y))
         rewrite: str | None = None
         imports: tuple[str, ...] = ()
         if not ops.aug and stable_origin(ctx, x, node) and stable_origin(ctx, y, node):

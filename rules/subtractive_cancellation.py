@@ -5,14 +5,16 @@ every earlier rounding error in a or b is now relative to a much smaller result.
 finds the general shapes where the operands are computed from the same variables and meet:
 f(u) - f(v) for one elementary function with related arguments (exp(a) - exp(b),
 log(x + 1) - log(x), cos(a) - cos(b)); a function minus its own leading Taylor term (x - sin(x),
-tanh(x) - x, cosh(x) - 1, tan(x) - sin(x)); 1/a - 1/b with related a and b; and a sum minus one
-of its own terms ((a + b) - a, x*(1 + d) - x), which returns only the digits of b (or x*d) that
-survived the addition. Each has an equal form that forms the small quantity first: sum-to-product
-identities, exp(b)*expm1(a - b), log1p((a - b)/b) or log(a/b), (b - a)/(a*b), or the term itself.
+tanh(x) - x, cosh(x) - 1, tan(x) - sin(x)); 1/a - 1/b with related a and b; and a scaled value
+minus its base, x*(1 + d) - x, which returns only the digits of x*d that survived the addition
+(a relative change computed the long way). Each has an equal form that forms the small quantity
+first: sum-to-product identities, exp(b)*expm1(a - b), log1p((a - b)/b) or log(a/b),
+(b - a)/(a*b), or x*d itself.
 
 Left alone on purpose: differences of independent inputs (a - b from two parameters), centring
 against a mean, integer, index, string and time arithmetic, difference quotients (the
-finite-difference rule's), error-free transformations (Kahan, Fast2Sum) and convergence tests,
+finite-difference rule's), convergence tests, and (a + b) - a written out, which real code uses
+on purpose (the representable step (x + h) - x, Fast2Sum, Kahan's correction),
 and the forms other rules own (exp(x) - 1, 1 - cos(x), sqrt differences, squares, variance,
 1 - cdf).
 """
@@ -25,7 +27,7 @@ from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
 from auditor.elementary import (
-    Operands, difference_operands, reads_variables, spelled_like, stable_origin, variables,
+    Operands, difference_operands, reads_variables, related, spelled_like, stable_origin,
 )
 
 #: elementary functions whose difference at related arguments is this rule's (sqrt is sqrt-difference's)
@@ -155,7 +157,7 @@ class SubtractiveCancellation(Rule):
         if family not in _SMOOTH or ctx.family(right) != family:
             return None
         a, b = p.single_arg(left), p.single_arg(right)
-        if a is None or b is None or p.same_expr(a, b) or not (variables(ctx, a) & variables(ctx, b)):
+        if a is None or b is None or p.same_expr(a, b) or not related(ctx, a, b):
             return None
         if is_difference_quotient(ctx, node):
             return None
@@ -209,7 +211,7 @@ class SubtractiveCancellation(Rule):
             return None
         assert isinstance(l, ast.BinOp) and isinstance(r, ast.BinOp)
         n, d1, d2 = l.left, l.right, r.right
-        if not p.same_expr(n, r.left) or p.same_expr(d1, d2) or not (variables(ctx, d1) & variables(ctx, d2)):
+        if not p.same_expr(n, r.left) or p.same_expr(d1, d2) or not related(ctx, d1, d2):
             return None
         if (p.is_integer_valued(ctx, d1) and p.is_integer_valued(ctx, d2)) or is_difference_quotient(ctx, node):
             return None
@@ -221,24 +223,23 @@ class SubtractiveCancellation(Rule):
 
     @staticmethod
     def _absorbed(ctx: Context, node: ast.AST, ops: Operands) -> Found | None:
-        for big, small, sign in ((ops.left, ops.right_written, 1), (ops.right, ops.left_written, -1)):
-            rest = absorbed_part(ctx, big, small)
-            if rest is None or in_test(ctx, node) or error_free(ctx, node, rest):
-                continue
-            if all(p.is_integer_valued(ctx, t) for t, _ in alg.signed_terms(big)):
+        pairs = ((ops.left, ops.right_written, 1), (ops.right, ops.left_written, -1))
+        for big, small, sign in pairs:
+            rest = absorbed_part(big, small)
+            if rest is None or in_test(ctx, node) or not reads_variables(ctx, small):
                 continue
             form = rest if sign > 0 else alg.neg(rest)
-            return ("(a + b) - a returns only the digits of b that survived the addition (none once |b| < 1e-16*|a|); "
+            return ("x*(1 + d) - x returns only the digits of x*d that survived the addition (none once |d| < 1e-16); "
                     "use {fix} directly", None, form, (), [big])
         return None
 
 
-def absorbed_part(ctx: Context, big: ast.expr, small: ast.expr) -> ast.expr | None:
-    """b for big = small + b; x*d for big = x*(1 + d) with small = x; else None."""
-    terms = alg.signed_terms(big)
-    hit = next((i for i, (t, s) in enumerate(terms) if s > 0 and p.same_expr(t, small)), None)
-    if len(terms) >= 2 and hit is not None and reads_variables(ctx, small):
-        return alg.build_sum(terms[:hit] + terms[hit + 1:])
+def absorbed_part(big: ast.expr, small: ast.expr) -> ast.expr | None:
+    """x*d for big = x*(1 + d) (any factor order) and small = x; else None.
+
+    The additive twin (a + b) - a is left alone: written out it is almost always deliberate (the
+    representable step (x + h) - x of numerical differentiation, Fast2Sum, Kahan's correction).
+    """
     factors, wanted = alg.mult_factors(big), alg.mult_factors(small)
     for i, f in enumerate(factors):
         inner = alg.signed_terms(f)
@@ -249,20 +250,3 @@ def absorbed_part(ctx: Context, big: ast.expr, small: ast.expr) -> ast.expr | No
         if all(p.same_expr(a, b) for a, b in zip(sorted(others, key=ast.dump), sorted(wanted, key=ast.dump))):
             return alg.build_product(others + [alg.build_sum(inner[:one] + inner[one + 1:])])
     return None
-
-
-def error_free(ctx: Context, node: ast.AST, rest: ast.expr) -> bool:
-    """Kahan / Fast2Sum / the representable-step trick: the rounding error of a sum is recovered on purpose."""
-    parent = ctx.parent(node)
-    if isinstance(parent, ast.BinOp) and isinstance(parent.op, (ast.Sub, ast.Add)):
-        other = parent.right if parent.left is node else parent.left
-        if p.same_expr(other, rest):
-            return True
-    if isinstance(parent, ast.Assign) and len(parent.targets) == 1 and isinstance(parent.targets[0], ast.Name):
-        name = parent.targets[0].id
-        if isinstance(rest, ast.Name) and rest.id == name:
-            return True  # h = (x + h) - x: makes the step exactly representable
-        return any(isinstance(n, ast.BinOp) and isinstance(n.op, ast.Sub) and n.lineno >= parent.lineno
-                   and any(isinstance(s, ast.Name) and s.id == name for s in (n.left, n.right))
-                   and any(p.same_expr(s, rest) for s in (n.left, n.right)) for n in ast.walk(ctx.scope(node)))
-    return False

@@ -226,3 +226,39 @@ def test_quadratic_cmath_rewrite_keeps_complex_roots():
     with mpmath.workdps(50):
         ref = (-1e8 + mpmath.sqrt(mpmath.mpf(1e16) - 4)) / 2
     assert abs(fixed(1.0, 1e8, 1.0) - complex(ref)) < 1e-12 * abs(complex(ref))
+
+
+# -- look-alikes found by scanning scipy's own sources (precision checks) ---------------------------
+
+LOOK_ALIKES = [
+    "def f(self):\n    return 1 / self.exposed - 1 / self.total\n",  # two attributes, not one variable
+    "import numpy as np\ndef f(a, b, c):\n    return np.exp(-pow(a, c)) - np.exp(-pow(b, c))\n",  # share only c
+    "import numpy as np\ndef f(lam, t):\n    return np.exp(-lam[1] * t) - np.exp(-lam[2] * t)\n",
+    "def f(x0, h):\n    dx = (x0 + h) - x0\n    return dx\n",  # the representable step, on purpose
+    "def f(x):\n    return 3 * x**4 - 2 * (1 - x * x)\n",  # 1 - x*x in a polynomial
+    "from scipy.special import erf\ndef f():\n    return erf(1) + 1\n",  # a constant
+    "from scipy import stats\ndef f(x, cov):\n    return 1 - stats.multivariate_normal(cov=cov).cdf(x)\n",  # no sf
+    "import numpy as np\ndef f(x, rho):\n    return np.arctan(x / np.sqrt(-rho * (rho + 1j)))\n",  # complex
+    "def f(theta, ci_l, ci_u):\n    ci_l, ci_u = 2 * theta - ci_u, 2 * theta - ci_l\n    return ci_l, ci_u\n",
+]
+
+
+@pytest.mark.parametrize("code", LOOK_ALIKES, ids=[str(i) for i in range(len(LOOK_ALIKES))])
+def test_look_alikes_stay_clean(code):
+    assert [r for r in rules_hit(code) if r in ELEMENTARY] == []
+
+
+def test_array_elements_are_not_one_variable():
+    [f] = findings("def f(x):\n    return x[0]**2 - x[1]**2\n", "square-difference")
+    assert f.severity.value == "note"  # nothing says x[0] and x[1] are close
+
+
+def test_root_of_one_minus_square_is_flagged():
+    [f] = findings("import math\ndef f(c):\n    return math.sqrt(1 - c * c)\n", "square-difference")
+    assert f.rewrite is not None and f.rewrite.text == "(1 - c) * (1 + c)"
+
+
+def test_new_style_distributions_use_ccdf():
+    [f] = findings("from scipy import stats\ndef f(x):\n    X = stats.Normal(mu=0.0, sigma=1.0)\n    return 1 - X.cdf(x)\n",
+                   "complement-of-cdf")
+    assert f.rewrite is not None and f.rewrite.text == "X.ccdf(x)"

@@ -61,9 +61,17 @@ def pressure_rise(p0, strain):
     return p - p0  # expect: subtractive-cancellation
 
 
+def thermal_growth(length, alpha, d_temp):
+    return (1.0 + alpha * d_temp) * length - length  # expect: subtractive-cancellation
+
+
 def added_mass(base_mass, shim_mass):
-    loaded = base_mass + shim_mass
-    return loaded - base_mass  # expect: subtractive-cancellation
+    return (base_mass + shim_mass) - base_mass  # ok: subtractive-cancellation
+
+
+def interval_bookkeeping(t_start, duration):
+    t_stop = t_start + duration
+    return t_stop - t_start  # ok: subtractive-cancellation
 
 
 def stiffness_shift(k):

@@ -75,7 +75,11 @@ def meridian_factor(lat_rad):
 
 
 def prime_vertical_factor(s):
-    return 1.0 - s**2  # expect: square-difference
+    return math.sqrt(1.0 - s**2)  # expect: square-difference
+
+
+def legendre_p2(s):
+    return 1.5 * s**2 - 0.5 - (1 - s**2)  # ok: square-difference
 
 
 def colatitude_sine_sq(lat_rad):

@@ -7,9 +7,11 @@ imports, evaluates or executes the scanned code; anything outside that subset me
 from __future__ import annotations
 
 import ast
+import functools
 import math
 import operator
 from collections.abc import Callable
+from typing import Any
 from dataclasses import dataclass
 
 from auditor.rule import Context
@@ -28,17 +30,17 @@ KNOWN: dict[str, Callable[[float], float]] = {
     "log1p": math.log1p,
 }
 try:  # the Bessel J0 power series is recognised only where scipy is present
-    from scipy.special import j0 as _j0
+    from scipy.special import j0 as _j0  # type: ignore[import-untyped]
 
     KNOWN["j0"] = lambda x: float(_j0(x))
 except ImportError:  # pragma: no cover - scipy is a declared dependency
     pass
 
-_BINOPS: dict[type, Callable[[object, object], object]] = {
+_BINOPS: dict[type, Callable[[Any, Any], Any]] = {
     ast.Add: operator.add, ast.Sub: operator.sub, ast.Mult: operator.mul, ast.Div: operator.truediv,
     ast.FloorDiv: operator.floordiv, ast.Mod: operator.mod, ast.BitAnd: operator.and_,
 }
-_CMPS: dict[type, Callable[[object, object], bool]] = {
+_CMPS: dict[type, Callable[[Any, Any], Any]] = {
     ast.Lt: operator.lt, ast.LtE: operator.le, ast.Gt: operator.gt, ast.GtE: operator.ge,
     ast.Eq: operator.eq, ast.NotEq: operator.ne,
 }
@@ -197,10 +199,11 @@ class Machine:
             (isinstance(call.func, ast.Name) and call.func.id == "range") or self.ctx.family(call) == "arange"
         ):
             raise Unknown("iterable")
-        args = [self.value(a) for a in call.args]  # type: ignore[attr-defined]
-        if not args or not all(isinstance(a, int) for a in args) or len(args) > 3:
+        args = [self.value(a) for a in call.args]
+        ints = [a for a in args if isinstance(a, int)]
+        if not ints or len(ints) != len(args) or len(ints) > 3:
             raise Unknown("range")
-        r = range(*args)  # type: ignore[arg-type]
+        r = range(*ints)
         if len(r) > 2000:
             raise Unknown("long range")
         return r
@@ -249,7 +252,7 @@ def _guarded(run: Callable[[float], object], x: float) -> object:
 def recognise(run: Callable[[str, float], object], candidates: list[str]) -> Recognised | None:
     """Try each candidate variable at the probe points; the first known function that fits wins."""
     for var in candidates:
-        values = [(x, _guarded(lambda v, var=var: run(var, v), x)) for x in _PROBES]
+        values = [(x, _guarded(functools.partial(run, var), x)) for x in _PROBES]
         if any(v is None for _, v in values):
             continue
         found = _matches(values)

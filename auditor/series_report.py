@@ -82,9 +82,9 @@ def summed_term(ctx: Context, node: ast.AST) -> tuple[ast.expr, set[str], set[st
         return _array_term(ctx, ctx.origin(arg))
     if fam in _DOTS and len(node.args) == 2:
         return _array_term(ctx, ast.BinOp(node.args[0], ast.Mult(), node.args[1]))
-    method = isinstance(node.func, ast.Attribute) and node.func.attr == "sum" and not node.args
-    if method and ctx.qualname(node.func) is None:
-        return _array_term(ctx, ctx.origin(node.func.value))  # type: ignore[union-attr]
+    if isinstance(node.func, ast.Attribute) and node.func.attr == "sum" and not node.args:
+        if ctx.qualname(node.func) is None:
+            return _array_term(ctx, ctx.origin(node.func.value))
     return None
 
 

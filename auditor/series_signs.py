@@ -269,7 +269,7 @@ def parity_branches(loop: Loop) -> list[tuple[Accumulation, Accumulation]]:
     """Pairs of updates in the two arms of an `if k % 2:` (same or different accumulators)."""
     idx = index_names(loop)
     accs = accumulations(loop)
-    out = []
+    out: list[tuple[Accumulation, Accumulation]] = []
     for node in loop_statements(loop):
         if isinstance(node, ast.If) and node.orelse and _parity_test(node.test, idx):
             left = [a for a in accs if any(a.stmt is s for s in node.body)]

@@ -46,11 +46,11 @@ def coefficient_table(ctx: Context, loop: ast.For) -> Table | None:
     if found is None:
         return None
     value = _table_value(ctx, loop, found[0])
-    if value is None or len(value.elts) < 5:
+    if not isinstance(value, (ast.List, ast.Tuple)) or len(value.elts) < 5:
         return None
     machine = Machine(ctx, {})
     try:
-        coeffs = [float(machine.value(e)) for e in value.elts]  # type: ignore[arg-type]
+        coeffs = [float(machine.value(e)) for e in value.elts]  # type: ignore[arg-type]  # complex -> TypeError
     except (Unknown, ArithmeticError, ValueError, TypeError):
         return None
     if any(c == 0 for c in coeffs):

@@ -232,7 +232,8 @@ def subtracted_twin(ctx: Context, node: ast.AST) -> ast.BinOp | None:
 
 
 def _end(node: ast.AST) -> int:
-    return getattr(node, "end_lineno", None) or getattr(node, "lineno", 0)
+    end: int | None = getattr(node, "end_lineno", None)
+    return end if end is not None else int(getattr(node, "lineno", 0))
 
 
 def exact_arithmetic(ctx: Context, loop: Loop, acc: Accumulation) -> bool:

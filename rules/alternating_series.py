@@ -120,7 +120,8 @@ class AlternatingSeries(Rule):
             if s.is_integer_term(ctx, term, ints):
                 return
             known = _recognise_vector(ctx, node, idx)
-            fix, rewrite, imports = "use the closed form or library function", None, ()
+            fix, rewrite = "use the closed form or library function", None
+            imports: tuple[str, ...] = ()
             if known is not None:
                 call = s.library_call(ctx, known.kind, known.var, _module(ctx, node), known.negated)
                 if call is not None:

@@ -96,6 +96,8 @@ class AlternatingSeries(Rule):
         for acc in s.accumulations(loop):
             if ctx.enclosing_loops(acc.stmt)[:1] != [loop] or acc.target in s.index_names(loop):
                 continue
+            if any(isinstance(n, (ast.GeneratorExp, ast.ListComp)) for n in ast.walk(acc.term)):
+                continue  # a summed comprehension inside the term is reported on its own call
             why = s.alternation(ctx, loop, acc)
             if why is None or s.growth(ctx, loop, acc) is not None:
                 continue
@@ -107,9 +109,7 @@ class AlternatingSeries(Rule):
             return
         twin = s.subtracted_twin(ctx, loop)
         if twin is not None:
-            yield Hit(loop, f"positive partial sums later subtracted (`{p.text(ctx, twin)}`, line {twin.lineno}) "
-                      "cancel exactly as the alternating series does; use the library function, or form the "
-                      "difference term by term in pairs")
+            yield Hit(loop, _twin_message(ctx, twin))
 
     def _vectorised(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
         found = summed_term(ctx, node)
@@ -134,8 +134,7 @@ class AlternatingSeries(Rule):
         elif isinstance(node, ast.Call) and s.positive_sum_call(ctx, node):
             twin = s.subtracted_twin(ctx, node)
             if twin is not None:
-                yield Hit(node, f"positive series later subtracted (`{p.text(ctx, twin)}`, line {twin.lineno}) "
-                          "cancel exactly as the alternating series does; use the library function")
+                yield Hit(node, _twin_message(ctx, twin))
 
 
 def _module(ctx: Context, node: ast.AST) -> str:
@@ -171,6 +170,13 @@ def _message(known: s.Recognised | None, why: str, fix: str) -> str:
     if known is None:
         return (f"alternating series ({why}): partial sums larger than the result cancel, losing about "
                 f"log10(largest term / |sum|) digits; {fix}")
-    extra = " (or, to keep a series, sum the positive series x**k/k! and take 1/s)" if known.kind == "exp_neg" else ""
+    extra = ""
+    if known.kind == "exp_neg":
+        extra = f" (or, to keep a series, sum the positive series {known.var}**k/k! and take 1/s)"
     return f"{s.DESCRIBED[known.kind]} summed directly: {MAGNITUDE[known.kind]}; {fix}{extra}"
 
+
+def _twin_message(ctx: Context, twin: ast.BinOp) -> str:
+    return (f"two positive series are summed and then subtracted (`{p.text(ctx, twin)}`, line {twin.lineno}), which "
+            "cancels exactly as the alternating series would, losing log10(largest partial sum / |difference|) "
+            "digits; use the library function or add the alternating terms in pairs")

@@ -88,6 +88,19 @@ def test_alternating_lookalikes_clean(code):
     assert not findings(code, ALT)
 
 
+def test_one_finding_for_a_series_summed_inside_a_data_loop():
+    code = ("import math\ndef f(xs):\n    total = 0.0\n    for x in xs:\n"
+            "        total += sum((-1)**k * x**k / math.factorial(k) for k in range(40))\n    return total\n")
+    hits = findings(code, ALT)
+    assert [h.span.line for h in hits] == [5]
+
+
+def test_nested_loops_flag_the_inner_series_only():
+    code = ("def f(xs):\n    out = []\n    for x in xs:\n        s, t = 0.0, 1.0\n        for k in range(1, 50):\n"
+            "            s += t\n            t *= -x / k\n        out.append(s)\n    return out\n")
+    assert [h.span.line for h in findings(code, ALT)] == [5]
+
+
 def test_severity_note_for_log_series():
     code = "def f(x):\n    return sum((-1)**(k+1) * x**k / k for k in range(1, 50))\n"
     (hit,) = findings(code, ALT)

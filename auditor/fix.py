@@ -1,8 +1,9 @@
 """`auditor fix`: print the verified rewrites as a unified diff; with --write apply them in place.
 
 Only rewrites the dynamic pass verified, for findings it measured unstable, are applied;
-the others are listed with their reason. The diff goes to standard output (or --output), so it can be piped to `git apply`;
-the listing and the summary go to standard error.
+the others are listed with their reason. The diff goes to standard output (or --output),
+so it can be piped to `git apply`; the listing and the summary go to standard error.
+Where two rewrites overlap the outer one is applied; a second run offers the inner one.
 
 Exit status: 0 when no finding at or above the fail level (--fail-on) is left in the code,
 1 when some are (without --write that includes those a shown rewrite would fix, since the
@@ -204,11 +205,9 @@ def run_fix(paths: Sequence[str], config: Config, write: bool, inputs: str | Non
     if STDIN in paths:
         err.write("auditor: error: fix rewrites files; save standard input to a file first\n")
         return 2
-    report = (measure or default_measure())(paths, config, inputs)
-    if config.changed_since:
-        from auditor.changed import keep_changed
-
-        report = keep_changed(report, config.changed_since)
+    if config.format != "text":
+        err.write(f"auditor: note: fix prints a unified diff; --format {config.format} applies to scan and measure\n")
+    report = (measure or default_measure())(paths, config, inputs)  # honours --changed-since itself
     refs, _ = discover(paths, config.exclude)
     plans, problems = plan_report(report, {r.display: r.location for r in refs})
     problems += [f"{e.path}: error: {e.message}" for e in report.errors]

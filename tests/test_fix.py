@@ -171,3 +171,10 @@ def test_real_dynamic_pass_verifies_and_applies_expm1(station, capsys):
     text = station.read_text(encoding="utf-8")
     assert "math.expm1(rate)" in text and "math.log1p(p)" in text, err
     assert status == 0, err
+
+
+def test_format_option_is_named_as_not_applying(station, monkeypatch, capsys):
+    use(monkeypatch, verify_all)
+    main(["fix", "station.py", "--format", "json", *ONLY])
+    out, err = capsys.readouterr()
+    assert out.startswith("--- a/station.py\n") and "--format json applies to scan and measure" in err

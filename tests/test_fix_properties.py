@@ -8,7 +8,7 @@ import difflib
 import io
 import re
 import shutil
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 
 import pytest
@@ -16,7 +16,7 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 from test_fix import verify_all
 
-from auditor import Config
+from auditor import Config, scan_source
 from auditor.fix import edit_for, fixable, run_fix
 from auditor.model import Finding
 from auditor.rewrite import Edit, Outcome, apply_edits
@@ -26,13 +26,15 @@ CORPUS = Path(__file__).resolve().parent / "corpus"
 FILES = sorted(p for p in CORPUS.rglob("*.py") if p.name != "__init__.py")
 
 
-def _static_findings() -> dict[Path, list[Finding]]:
-    """Per corpus file, the findings with a rewrite, every rewrite taken as verified."""
-    report = verify_all([str(p) for p in FILES], Config(), None)
-    out: dict[Path, list[Finding]] = {}
-    for f in report.findings:
-        if fixable(f):
-            out.setdefault(Path(f.path).resolve(), []).append(f)
+def _static_findings() -> dict[Path, tuple[str, list[Finding]]]:
+    """Per corpus file, its text and the findings with a rewrite (scanned from that very text)."""
+    out: dict[Path, tuple[str, list[Finding]]] = {}
+    for path in FILES:
+        text = path.read_text(encoding="utf-8")
+        findings = [f.with_(rewrite=replace(f.rewrite, verified=True)) for f in scan_source(text, str(path)).findings
+                    if f.rewrite is not None]
+        if findings:
+            out[path] = (text, [f for f in findings if fixable(f)])
     return out
 
 
@@ -73,9 +75,8 @@ def assert_only_imports_added(without: str, with_imports: str) -> None:
 @settings(max_examples=80, deadline=None, suppress_health_check=[HealthCheck.too_slow])
 @given(data=st.data())
 def test_any_subset_of_rewrites_parses_and_changes_only_its_spans(data):
-    path, findings = data.draw(st.sampled_from(CASES))
+    path, (source, findings) = data.draw(st.sampled_from(CASES))
     chosen = data.draw(st.lists(st.sampled_from(findings), unique_by=id, min_size=1))
-    source = path.read_text(encoding="utf-8")
     edits = [edit_for(f) for f in chosen]
     out = apply_edits(source, edits)
     assert out.error is None, out.error

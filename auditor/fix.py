@@ -100,12 +100,19 @@ def plan_file(path: str, location: str, findings: Sequence[Finding]) -> FilePlan
         data, encoding, text = read_python(location)
     except (OSError, SyntaxError, UnicodeDecodeError, LookupError) as exc:
         return f"cannot read: {exc}"
-    pairs = [(f, edit_for(f)) for f in findings if fixable(f)]
+    # Of two rewrites for the same span, the one measured most accurate is tried first and kept.
+    ranked = sorted((f for f in findings if fixable(f)), key=_accuracy_after)
+    pairs = [(f, edit_for(f)) for f in ranked]
     outcome = apply_edits(text, [e for _, e in pairs])
     by_edit = {id(e): f for f, e in pairs}
     fixed = tuple(by_edit[id(e)] for e in outcome.applied) if outcome.changed else ()
     unverified = tuple(f for f in findings if f.rewrite and not fixable(f))
     return FilePlan(path, location, data, encoding, text, outcome, unverified, fixed)
+
+
+def _accuracy_after(finding: Finding) -> float:
+    after = finding.rewrite.digits_lost_max_after if finding.rewrite else None
+    return float("inf") if after is None else after
 
 
 def unified_diff(path: str, before: str, after: str) -> str:

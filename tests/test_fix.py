@@ -178,3 +178,21 @@ def test_format_option_is_named_as_not_applying(station, monkeypatch, capsys):
     main(["fix", "station.py", "--format", "json", *ONLY])
     out, err = capsys.readouterr()
     assert out.startswith("--- a/station.py\n") and "--format json applies to scan and measure" in err
+
+
+def test_of_two_rewrites_for_one_span_the_more_accurate_is_applied(station, monkeypatch, capsys):
+    def two_rules(paths, config, inputs):
+        report = verify_all(paths, config, inputs)
+        target = next(f for f in report.findings if f.rule == "exp-minus-one")
+        worse = target.with_(rule="subtractive-cancellation",
+                             rewrite=replace(target.rewrite, text="(math.exp(rate) - 1.0)", digits_lost_max_after=9.0))
+        best = target.with_(rewrite=replace(target.rewrite, digits_lost_max_after=0.1))
+        others = tuple(f for f in report.findings if f is not target)
+        return replace(report, findings=(worse, best, *others))
+
+    use(monkeypatch, two_rules)
+    main(["fix", "station.py", "--write", *ONLY])
+    _, err = capsys.readouterr()
+    assert station.read_text(encoding="utf-8") == FIXED
+    assert "station.py:7:12: subtractive-cancellation: verified rewrite not applied: duplicate" not in err
+    assert "subtractive-cancellation: verified rewrite not applied: overlaps exp-minus-one at 7:12" in err

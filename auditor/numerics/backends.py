@@ -4,9 +4,15 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Any
 
+import gmpy2
 import mpmath
 
-from auditor.numerics.allow import CONSTANTS, DTYPES, Pair, lookup
+from auditor.numerics import mpfr
+from auditor.numerics.allow import _BUILTINS, CONSTANTS, DTYPES, Pair, lookup
+from auditor.numerics.budget import NotEvaluable
+
+#: Builtins whose mpmath-side implementation is indifferent to the number type.
+_GENERIC_BUILTINS = frozenset(_BUILTINS) - {"complex", "round"}
 
 
 @dataclass(frozen=True, slots=True)
@@ -14,18 +20,21 @@ class Backend:
     """How literals, constants and allowed functions look in one backend."""
 
     reference: bool  #: False: float run with the real functions; True: mpmath at the working precision
+    fast: bool = False  #: with `reference`: MPFR (gmpy2) numbers, scalar operations only (numerics/mpfr.py)
 
     @property
     def name(self) -> str:
-        return "reference" if self.reference else "float"
+        return ("fast reference" if self.fast else "reference") if self.reference else "float"
 
     def literal(self, value: Any) -> Any:
         """A numeric literal: floats enter the reference as their exact binary value."""
         if not self.reference or isinstance(value, (bool, int)) or value is None:
             return value
         if isinstance(value, float):
-            return mpmath.mpf(value)
+            return gmpy2.mpfr(value) if self.fast else mpmath.mpf(value)  # 53 bits or more: exact
         if isinstance(value, complex):
+            if self.fast:
+                raise NotEvaluable("complex numbers are left to the mpmath reference")
             return mpmath.mpc(value)
         return value
 
@@ -38,6 +47,8 @@ class Backend:
         return None
 
     def function(self, qualname: str) -> Any | None:
+        if self.fast:
+            return _fast_function(qualname)
         pair: Pair | None = lookup(qualname)
         if pair is None:
             return None
@@ -48,5 +59,13 @@ class Backend:
         return self.literal(value) if self.reference else value
 
 
+def _fast_function(qualname: str) -> Any | None:
+    found = mpfr.functions().get(qualname)
+    if found is None and qualname in _GENERIC_BUILTINS:
+        found = _BUILTINS[qualname][1]
+    return found
+
+
 FLOAT = Backend(reference=False)
 REFERENCE = Backend(reference=True)
+FAST = Backend(reference=True, fast=True)

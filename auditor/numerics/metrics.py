@@ -10,6 +10,8 @@ import numpy as np
 from mpmath import libmp
 
 from auditor.model import Verdict
+from auditor.numerics import mpfr
+from auditor.numerics.mpfr import MPFR
 
 #: -log10 of the unit roundoff: 2^-53 for float64, 2^-24 for float32 (CONTRACT.md).
 DIGITS_FLOAT64 = 15.95
@@ -59,6 +61,11 @@ def digits_lost(float_value: Any, reference: Any, digits: float = DIGITS_FLOAT64
 def log10_relative(value: Any, reference: Any) -> float:
     """log10(|value - ref| / |ref|): the difference exact, the ratio to 53 bits (mpmath.libmp
     directly, as this runs once per sample), its logarithm in double precision."""
+    if reference.__class__ is MPFR and value.__class__ is not float:
+        reference = mpfr.as_mpf(reference)
+    elif reference.__class__ is MPFR:
+        # MPFR rounds the difference correctly, so 53 bits of it (any context) are as good as exact.
+        return mpfr.log10_abs((value - reference) / reference) if value != reference else -math.inf
     raw = getattr(reference, "_mpf_", None)
     if raw is not None and value.__class__ is float:
         diff = libmp.mpf_sub(libmp.from_float(value), raw, 0)  # prec 0: exact
@@ -119,6 +126,12 @@ def condition_log10(base: Any, shifted: Sequence[Any]) -> float | None:
     """
     if base == 0:
         return math.inf if any(s != 0 for s in shifted) else None
+    if base.__class__ is MPFR or any(x.__class__ is MPFR for x in shifted):
+        if not (base.__class__ is MPFR and all(x.__class__ is MPFR for x in shifted)):
+            base, shifted = mpfr.as_mpf(base), [mpfr.as_mpf(x) for x in shifted]  # one fell back to mpmath
+        else:
+            total_q = sum(abs((x - base) / base) for x in shifted)
+            return -math.inf if total_q == 0 else mpfr.log10_abs(total_q) + STEP_BITS * math.log10(2)
     raw = getattr(base, "_mpf_", None)
     if raw is not None and all(getattr(x, "_mpf_", None) is not None for x in shifted):
         # Real values: each relative difference exact, divided to 53 bits (mpmath.libmp directly).

@@ -7,6 +7,8 @@ from typing import Any
 
 import mpmath
 
+from auditor.numerics.mpfr import as_mpf
+
 #: First working precision in bits (about 38 decimal digits).
 START_BITS = 128
 #: Precision cap; past it the reference is declared not converged.
@@ -32,10 +34,12 @@ def agree(a: Any, b: Any, digits: float = AGREE_DIGITS) -> bool:
     """True when a and b share `digits` significant digits (both exactly 0 also agree)."""
     if isinstance(a, (tuple, list)) or isinstance(b, (tuple, list)):
         return len(a) == len(b) and all(agree(x, y, digits) for x, y in zip(a, b))
+    if a.__class__ is not b.__class__:
+        a, b = as_mpf(a), as_mpf(b)  # an MPFR value and an mpmath one (a sample mpmath re-evaluated)
     if a == b:
         return True
     scale = max(abs(a), abs(b))
-    return bool(abs(a - b) <= scale * mpmath.mpf(10) ** (-digits))
+    return bool(abs(a - b) <= scale * 10.0 ** (-digits))  # the tolerance need not be exact
 
 
 def converge(evaluate: Callable[[int], Any], start: int = START_BITS, cap: int = CAP_BITS) -> Converged:

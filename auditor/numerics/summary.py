@@ -11,6 +11,7 @@ import mpmath
 
 from auditor.model import Measurement, SeriesFigures, Verdict
 from auditor.numerics import metrics as mx
+from auditor.numerics.mpfr import as_mpf
 from auditor.numerics.run import Sample
 
 
@@ -32,7 +33,7 @@ def reference_text(value: Any) -> str | None:
     if value is None:
         return None
     try:
-        return str(mpmath.nstr(value, 32, min_fixed=-4, max_fixed=6))
+        return str(mpmath.nstr(as_mpf(value), 32, min_fixed=-4, max_fixed=6))
     except (TypeError, ValueError):
         return str(value)
 

@@ -4,11 +4,14 @@ from __future__ import annotations
 
 import ast
 import copy
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
+from typing import Any
 from dataclasses import dataclass, field
 
 from auditor.model import Span
-from auditor.numerics.backends import FLOAT, REFERENCE
+from auditor.numerics.backends import FAST, FLOAT, REFERENCE
+from auditor.numerics.batch import compile_batch
+from auditor.numerics.dual import compile_dual
 from auditor.numerics.budget import Budget, NotEvaluable
 from auditor.numerics.interp import SourceModule, Tracer
 from auditor.numerics.run import Shadow
@@ -210,11 +213,33 @@ def compile_shadow(unit: Unit, module: SourceModule, seconds: float = 2.0) -> Sh
     """Compile the unit once per backend (NotEvaluable when something is not allowed)."""
     budget = Budget(seconds)
     tracers = Tracer(dict(unit.trace)), Tracer(dict(unit.trace))
-    fns = []
-    for backend, tracer in zip((FLOAT, REFERENCE), tracers):
-        compiler = UnitCompiler(backend, module, budget, tracer)
-        if isinstance(unit.node, ast.FunctionDef):
-            fns.append(compiler.compile_function(unit.node))
-        else:
-            fns.append(compile_expression(compiler, unit.node, unit.inputs))
-    return Shadow(fns[0], fns[1], tuple(unit.inputs), budget, tracers[0], tracers[1])
+    fns = [_compiled(unit, UnitCompiler(backend, module, budget, tracer)) for backend, tracer in zip((FLOAT, REFERENCE), tracers)]
+    try:
+        fast = _compiled(unit, UnitCompiler(FAST, module, budget, Tracer()))
+    except (NotEvaluable, RecursionError):
+        fast = None  # something without an MPFR twin: the mpmath reference alone
+    return Shadow(fns[0], fns[1], tuple(unit.inputs), budget, tracers[0], tracers[1], fast_fn=fast,
+                  batches=_batches(unit, module, budget, fast is not None))
+
+
+def _batches(unit: Unit, module: SourceModule, budget: Budget, fast: bool) -> tuple[Any, Any, Any, Any] | None:
+    """Column-wise twins of an expression unit: float, mpmath, MPFR, MPFR with gradients
+    (none for functions, traced sums, other syntax; no gradient twin without derivative rules)."""
+    if isinstance(unit.node, ast.FunctionDef) or unit.trace:
+        return None
+    try:
+        float_fn, ref_fn = (compile_batch(UnitCompiler(b, module, budget), unit.node, unit.inputs) for b in (FLOAT, REFERENCE))
+        fast_fn = compile_batch(UnitCompiler(FAST, module, budget), unit.node, unit.inputs) if fast else None
+    except (NotEvaluable, RecursionError):
+        return None
+    try:
+        dual_fn = compile_dual(UnitCompiler(FAST, module, budget), unit.node, unit.inputs, unit.inputs) if fast else None
+    except (NotEvaluable, RecursionError):
+        dual_fn = None
+    return float_fn, ref_fn, fast_fn, dual_fn
+
+
+def _compiled(unit: Unit, compiler: UnitCompiler) -> Callable[..., Any]:
+    if isinstance(unit.node, ast.FunctionDef):
+        return compiler.compile_function(unit.node)
+    return compile_expression(compiler, unit.node, unit.inputs)

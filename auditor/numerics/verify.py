@@ -5,7 +5,9 @@ from collections.abc import Sequence
 
 from auditor.numerics import metrics as mx
 from auditor.numerics.reference import START_BITS, agree
+from auditor.numerics.figures import column_losses
 from auditor.numerics.run import FATAL, Sample, Shadow, spread, flatten, quiet, run_float, run_ref, uses_arrays
+from auditor.numerics.sweep import float_column
 
 #: After the rewrite, the worst loss may exceed what the condition number explains by this much.
 WITHIN_CONDITION = 1.0
@@ -22,8 +24,7 @@ def verify_rewrite(before: Sequence[Sample], after: Sequence[Sample]) -> tuple[b
     """(verified, why). Verified only if the rewrite computes the same values, its worst loss
     is within WITHIN_CONDITION digits of what the condition number explains, and no sample
     gets worse by more than WORSE_ALLOWED digits."""
-    by_input = {_key(a.inputs): a for a in after}
-    pairs = [(b, by_input[_key(b.inputs)]) for b in before if b.digits_lost is not None and _key(b.inputs) in by_input]
+    pairs = _pairs(before, after)
     if not pairs:
         return False, "no sample measured"
     for b, a in pairs:
@@ -39,6 +40,15 @@ def verify_rewrite(before: Sequence[Sample], after: Sequence[Sample]) -> tuple[b
     if worse > WORSE_ALLOWED:
         return False, f"the rewrite is worse by {worse:.1f} digits at some input"
     return True, "verified on the same samples"
+
+
+def _pairs(before: Sequence[Sample], after: Sequence[Sample]) -> list[tuple[Sample, Sample]]:
+    """Measured originals with the rewrite's sample at the same inputs (by position when
+    `remeasure` made them, else by input values)."""
+    if len(before) == len(after) and all(b.inputs is a.inputs for b, a in zip(before, after)):
+        return [(b, a) for b, a in zip(before, after) if b.digits_lost is not None]
+    by_input = {_key(a.inputs): a for a in after}
+    return [(b, by_input[_key(b.inputs)]) for b in before if b.digits_lost is not None and _key(b.inputs) in by_input]
 
 
 def _key(inputs: dict[str, object]) -> tuple[tuple[str, object], ...]:
@@ -57,7 +67,9 @@ def remeasure(shadow: Shadow, before: Sequence[Sample]) -> list[Sample]:
     bits = max((b.bits for b in before), default=START_BITS)
     uses_arrays(shadow, [b.inputs for b in before])
     with quiet(bits):
-        out = [_again(shadow, b, i in check) for i, b in enumerate(before)]
+        out = _again_column(shadow, before, check)
+        if out is None:
+            out = [_again(shadow, b, i in check) for i, b in enumerate(before)]
         worst = sorted(range(len(out)), key=lambda i: -(out[i].digits_lost or 0.0))[:2]
         for i in worst:
             if i not in check and out[i].digits_lost is not None:
@@ -86,3 +98,19 @@ def _again(shadow: Shadow, b: Sample, own_reference: bool, against_own: bool = F
     f = fv[b.index]
     loss = mx.digits_lost(f, reference if against_own else b.reference, mx.digits_of(f))
     return Sample(b.inputs, f, reference, loss, b.condition_log10, b.bits, digits=mx.digits_of(f), index=b.index)
+
+
+def _again_column(shadow: Shadow, before: Sequence[Sample], check: set[int]) -> list[Sample] | None:
+    """`_again` for all samples with the rewrite's float run done column-wise (numerics/sweep.py);
+    None when the rewrite has no column form or the column is not plain floats against MPFR."""
+    measured = [b for b in before if b.digits_lost is not None]
+    if len(measured) != len(before) or any(b.index != 0 for b in before):
+        return None
+    floats = float_column(shadow, [b.inputs for b in before])
+    losses = column_losses(floats, [b.reference for b in before]) if floats is not None else None
+    if floats is None or losses is None:
+        return None
+    out = [Sample(b.inputs, f, b.reference, loss, b.condition_log10, b.bits) for b, f, loss in zip(before, floats, losses)]
+    for i in check:
+        out[i] = _again(shadow, before[i], True)
+    return out

@@ -3,6 +3,7 @@
     python bench/field_trial.py --out /tmp/trial               # install, scan, measure
     python bench/field_trial.py --out /tmp/trial --venv /tmp/v  # reuse an environment
     python bench/field_trial.py draw --out /tmp/trial -n 100    # findings to judge by hand
+    python bench/field_trial.py recheck --out /tmp/trial        # which drawn findings remain now
 
 The packages are installed with pip into a throwaway virtual environment; the auditor
 runs from this checkout with the interpreter running this script and only *reads* their
@@ -82,9 +83,11 @@ def run_auditor(args: list[str], cwd: Path, timeout: float) -> tuple[int | None,
 def classify(errors: list[dict], outcome: Outcome) -> None:
     for e in errors:
         msg = e["message"]
-        if msg.startswith("syntax error") or "too deeply nested" in msg or msg.startswith("bad coding"):
+        # parser-level failures of the file itself; a rule's RecursionError ("too deeply nested to
+        # analyse") is the auditor's own failure and counts as internal
+        if msg.startswith(("syntax error", "bad coding", "cannot parse", "too deeply nested for the Python parser")):
             outcome.syntax_errors += 1
-        elif "internal error" in msg:
+        elif "internal error" in msg or "too deeply nested to analyse" in msg:
             outcome.internal_errors += 1
         else:
             outcome.other_errors += 1
@@ -182,6 +185,9 @@ def draw(args: argparse.Namespace) -> int:
             pool += [(name, f) for f in json.loads(path.read_text())["findings"]]
     pool.sort(key=lambda nf: (nf[1]["path"], nf[1]["line"], nf[1]["column"], nf[1]["rule"]))
     picked = random.Random(args.seed).sample(pool, min(args.n, len(pool)))
+    keep = [{"number": i, "package": name, "rule": f["rule"], "path": f["path"], "line": f["line"]}
+            for i, (name, f) in enumerate(picked, start=1)]
+    (out / "draw.json").write_text(json.dumps(keep, indent=1) + "\n")
     for number, (name, f) in enumerate(picked, start=1):
         lines = (site / f["path"]).read_text(encoding="utf-8", errors="replace").splitlines()
         lo, hi = max(0, f["line"] - 1 - args.context), min(len(lines), f["end_line"] + args.context)
@@ -192,9 +198,29 @@ def draw(args: argparse.Namespace) -> int:
     return 0
 
 
+def recheck(args: argparse.Namespace) -> int:
+    """Scan the files of the last draw again (with --checkout) and say which findings remain."""
+    global CHECKOUT
+    CHECKOUT = Path(args.checkout).resolve() if args.checkout else ROOT
+    out = Path(args.out).resolve()
+    site = Path(json.loads((out / "summary.json").read_text())["site"])
+    drawn = json.loads((out / "draw.json").read_text())
+    files = sorted({d["path"] for d in drawn})
+    status, err, _ = run_auditor(["scan", *files, "--format", "json", "--fail-on", "never",
+                                  "--output", str(out / "recheck.json")], site, timeout=1800)
+    if status != 0:
+        print(f"recheck scan failed: {err}")
+        return 2
+    now = {(f["rule"], f["path"], f["line"]) for f in json.loads((out / "recheck.json").read_text())["findings"]}
+    for d in drawn:
+        state = "still flagged" if (d["rule"], d["path"], d["line"]) in now else "gone"
+        print(f"{d['number']:>3} {state:<13} {d['rule']} {d['path']}:{d['line']}")
+    return 0
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__, formatter_class=argparse.RawDescriptionHelpFormatter)
-    parser.add_argument("action", nargs="?", choices=("trial", "draw"), default="trial")
+    parser.add_argument("action", nargs="?", choices=("trial", "draw", "recheck"), default="trial")
     parser.add_argument("--out", required=True, help="folder for the raw JSON reports")
     parser.add_argument("--venv", help="virtual environment to create (or reuse when it exists)")
     parser.add_argument("--packages", nargs="+", default=list(PACKAGES), help="pip names to install and scan")
@@ -207,7 +233,7 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("-n", type=int, default=100, help="draw: findings to draw")
     parser.add_argument("--context", type=int, default=3, help="draw: source lines shown around each finding")
     args = parser.parse_args(argv)
-    return draw(args) if args.action == "draw" else trial(args)
+    return {"draw": draw, "recheck": recheck, "trial": trial}[args.action](args)
 
 
 if __name__ == "__main__":

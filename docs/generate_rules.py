@@ -30,7 +30,8 @@ def index_page(rules) -> str:
         "| rule | severity | finds |",
         "|---|---|---|",
     ]
-    lines += [f"| [`{r.id}`]({r.id}.md) | {r.severity.value} | {r.summary} |" for r in rules]
+    cell = lambda text: text.replace("|", "\\|")  # a bare | would end the table cell
+    lines += [f"| [`{r.id}`]({r.id}.md) | {r.severity.value} | {cell(r.summary)} |" for r in rules]
     return "\n".join(lines) + "\n"
 
 

@@ -22,6 +22,7 @@ EXPRESSIONS = [
     ("(x - y) / (x + y) + atan(x) ** 3", "x=1e-3..1e3, y=-5..5"),
     ("hypot(x, y) - x", "x=1..1e8, y=1e-3..1"),  # hypot has no derivative rule: forward differences
     ("tanh(x) / x - x ** -0.5", "x=1e-6..10"),
+    ("sin(x) * cosh(x) - sinh(x) * cos(x)", "x=1e-4..2"),  # sin_cos / sinh_cosh pairs
 ]
 
 

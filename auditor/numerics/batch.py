@@ -35,6 +35,17 @@ def _mul(a: Any, b: Any) -> Any:
     return a * b
 
 
+_GUARDED = (int, list, tuple)
+
+
+def _times(a: list[Any], b: list[Any]) -> list[Any]:
+    """Elementwise product; the guarded `_mul` only where an int or a sequence takes part."""
+    kinds = set(map(type, a)) | set(map(type, b))
+    if any(k in kinds for k in _GUARDED):
+        return list(map(_mul, a, b))
+    return list(map(operator.mul, a, b))
+
+
 class BatchCompiler:
     """Compiles an expression over `inputs` into `fn(columns, n) -> list of n values`."""
 
@@ -73,7 +84,9 @@ class BatchCompiler:
                 and abs(node.right.value) <= 64:
             power = node.right.value
             return lambda columns, n: [a ** power for a in left(columns, n)]
-        op = _mul if kind is ast.Mult else _BINARY[kind]
+        if kind is ast.Mult:
+            return lambda columns, n: _times(left(columns, n), right(columns, n))
+        op = _BINARY[kind]
         return lambda columns, n: list(map(op, left(columns, n), right(columns, n)))
 
     def _UnaryOp(self, node: ast.UnaryOp) -> BatchFn:

@@ -24,9 +24,14 @@ def _relative(f: float, r: Any) -> float:
 def column_losses(floats: Sequence[Any], refs: Sequence[Any]) -> list[float] | None:
     """Digits lost per sample, max(0, 15.95 + log10(|f - r| / |r|)) capped at 15.95 (CONTRACT.md),
     for Python-float outputs against MPFR references; None for any other kind of column."""
-    if any(f.__class__ is not float for f in floats) or any(r.__class__ is not MPFR for r in refs):
+    if set(map(type, floats)) != {float} or set(map(type, refs)) != {MPFR}:
         return None
-    rel = np.array([_relative(f, r) for f, r in zip(floats, refs)])
+    as_float = np.array(floats)
+    plain = np.isfinite(as_float) & (np.array(list(map(float, refs))) != 0)
+    if plain.all():  # the common case, without a Python call per sample
+        rel = np.abs(np.array([float((f - r) / r) for f, r in zip(floats, refs)]))
+    else:
+        rel = np.array([_relative(f, r) for f, r in zip(floats, refs)])
     with np.errstate(divide="ignore"):
         losses = np.clip(mx.DIGITS_FLOAT64 + np.log10(rel), 0.0, mx.DIGITS_FLOAT64)
     out: list[float] = losses.tolist()
@@ -39,21 +44,38 @@ def column_losses(floats: Sequence[Any], refs: Sequence[Any]) -> list[float] | N
 def column_conditions(points: Sequence[dict[str, Any]], vary: Sequence[str], values: Sequence[Any],
                       grads: dict[str, list[Any]]) -> list[float | None]:
     """log10 of sum_i |x_i df/dx_i| / |f| per sample (CONTRACT.md) from gradients, over the float
-    inputs that are neither 0 nor infinite (as the forward differences of run._moves)."""
-    totals: list[float] = []
-    special: dict[int, float | None] = {}
-    for i, (p, y) in enumerate(zip(points, values)):
-        terms = [abs(p[n] * grads[n][i]) if n in grads else 0 for n in vary if _movable(p.get(n))]
-        if not terms:
-            special[i] = None if y == 0 else -math.inf
-        elif y == 0:
-            special[i] = math.inf if any(t != 0 for t in terms) else None
-        totals.append(0.0 if i in special else float(sum(terms) / abs(y)))
-    with np.errstate(divide="ignore"):
-        logs = np.log10(np.array(totals)).tolist() if totals else []
-    for i in [i for i, t in enumerate(totals) if i not in special and (t == 0 or math.isinf(t))]:
-        logs[i] = _outside_float_log10(points[i], vary, values[i], grads, i)
-    return [special[i] if i in special else logs[i] for i in range(len(values))]
+    inputs that are neither 0 nor infinite (as the forward differences of run._moves). Terms are
+    summed in floats (3 digits are needed); samples where a float would under- or overflow, or
+    f is 0, or no input moves, are computed one by one."""
+    y = np.array(list(map(float, values)))
+    total = np.zeros(len(values))
+    moved = np.zeros(len(values), dtype=bool)
+    risky = ~(np.abs(y) >= 1e-300) | ~(np.abs(y) <= 1e300)
+    for name in vary:
+        x = np.array([p.get(name) if _movable(p.get(name)) else 0.0 for p in points])
+        moved |= x != 0
+        if name not in grads:
+            continue
+        g = np.array(list(map(float, grads[name])))
+        risky |= ~(np.abs(g) <= 1e300) | ((g == 0) & (x != 0))  # 0 may be an underflow: checked in MPFR
+        total += np.abs(x * g)
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        logs = np.log10(total / np.abs(y))
+    risky |= ~moved | ~np.isfinite(logs)
+    out: list[float | None] = logs.tolist()
+    for i in np.flatnonzero(risky).tolist():
+        out[i] = _one_condition(points[i], vary, values[i], grads, i)
+    return out
+
+
+def _one_condition(p: dict[str, Any], vary: Sequence[str], y: Any, grads: dict[str, list[Any]], i: int) -> float | None:
+    """One sample's condition number in MPFR arithmetic (the special cases of metrics.condition_log10)."""
+    terms = [abs(p[n] * grads[n][i]) if n in grads else 0 for n in vary if _movable(p.get(n))]
+    if not terms:
+        return None if y == 0 else -math.inf
+    if y == 0:
+        return math.inf if any(t != 0 for t in terms) else None
+    return _outside_float_log10(p, vary, y, grads, i)
 
 
 def _outside_float_log10(p: dict[str, Any], vary: Sequence[str], y: Any, grads: dict[str, list[Any]], i: int) -> float:

@@ -16,7 +16,10 @@ from auditor.numerics.run import (
     _FACTOR, _FACTOR_FLOAT, _MAKE, _condition_of, _from_float, _needs_recheck, FATAL, Sample, Shadow,
     finish_sample, flatten,
 )
+import numpy as np
 from mpmath import libmp
+
+from auditor.numerics.reference import AGREE_DIGITS
 
 Point = dict[str, Any]
 
@@ -115,10 +118,11 @@ def finish_column(shadow: Shadow, points: Sequence[Point], floats: list[Any], re
     lies outside the float range, or has another kind of output goes through run.finish_sample.
     `conds`: per point, the condition number or a function giving it (None: computed per point)."""
     losses = column_losses(floats, refs)
+    plain = _plain_mask(losses, refs, bits)
     out = []
     for i, p in enumerate(points):
         c = conds[i] if conds is not None else None
-        if losses is not None and not _needs_recheck(losses[i], mx.DIGITS_FLOAT64, bits) and not mx.out_of_range(refs[i]):
+        if plain[i]:
             cond = (c(refs[i], 0) if callable(c) else c) if shadow.conditions else None
             out.append(Sample(p, floats[i], refs[i], losses[i], cond, bits))
         else:
@@ -127,11 +131,25 @@ def finish_column(shadow: Shadow, points: Sequence[Point], floats: list[Any], re
     return out
 
 
+def _plain_mask(losses: list[float] | None, refs: list[Any], bits: int) -> list[bool]:
+    """Points whose column figures stand: no recheck needed (run._needs_recheck) and the exact
+    result a normal float (metrics.out_of_range)."""
+    if losses is None:
+        return [False] * len(refs)
+    loss = np.array(losses)
+    size = np.abs(np.array(list(map(float, refs))))
+    spare = bits * math.log10(2) - AGREE_DIGITS - 2
+    ok = (loss < mx.DIGITS_FLOAT64 - 0.05) & (loss <= spare) & (size <= mx.LARGEST) & (size >= mx.SMALLEST_NORMAL)
+    out: list[bool] = ok.tolist()
+    return out
+
+
 def _measure_dual(shadow: Shadow, run: DualFn, points: Sequence[Point], floats: list[Any], bits: int) -> list[Sample] | None:
     """Values and gradients in one pass (numerics/dual.py); None when that pass raised."""
     n = len(points)
     try:
-        columns = {k: [mpfr.exact(v) if v.__class__ is float else v for v in (p[k] for p in points)] for k in points[0]}
+        zero = mpfr.exact(0.0)
+        columns = {k: [zero + v if v.__class__ is float else v for v in (p[k] for p in points)] for k in points[0]}
         for name in shadow.vary:
             columns[f"<seed {name}>"] = [1 if _movable(p.get(name)) else 0 for p in points]
         values, grads = run(columns, n)

@@ -30,7 +30,7 @@ def verify_rewrite(before: Sequence[Sample], after: Sequence[Sample]) -> tuple[b
     for b, a in pairs:
         if a.digits_lost is None:
             return False, f"the rewrite could not be measured at {b.inputs} ({a.note or 'excluded'})"
-        if not agree(b.reference, a.reference, SAME_VALUE_DIGITS):
+        if a.reference is not b.reference and not agree(b.reference, a.reference, SAME_VALUE_DIGITS):
             return False, f"the rewrite computes a different value at {b.inputs}"
     excess = max((a.digits_lost or 0.0) - mx.explained(b.condition_log10) for b, a in pairs)
     # Compared as relative errors, so a float32 original and a float64 rewrite compare fairly.
@@ -74,8 +74,8 @@ def remeasure(shadow: Shadow, before: Sequence[Sample]) -> list[Sample]:
         for i in worst:
             if i not in check and out[i].digits_lost is not None:
                 out[i] = _again(shadow, before[i], True)
-        if any(a.digits_lost is not None and not agree(a.reference, b.reference, SAME_VALUE_DIGITS)
-               for a, b in zip(out, before)):
+        if any(a.digits_lost is not None and a.reference is not b.reference
+               and not agree(a.reference, b.reference, SAME_VALUE_DIGITS) for a, b in zip(out, before)):
             out = [_again(shadow, b, True, against_own=True) for b in before]
     return out
 
@@ -104,13 +104,15 @@ def _again_column(shadow: Shadow, before: Sequence[Sample], check: set[int]) -> 
     """`_again` for all samples with the rewrite's float run done column-wise (numerics/sweep.py);
     None when the rewrite has no column form or the column is not plain floats against MPFR."""
     measured = [b for b in before if b.digits_lost is not None]
-    if len(measured) != len(before) or any(b.index != 0 for b in before):
+    if not measured or any(b.index != 0 for b in measured):
         return None
-    floats = float_column(shadow, [b.inputs for b in before])
-    losses = column_losses(floats, [b.reference for b in before]) if floats is not None else None
+    floats = float_column(shadow, [b.inputs for b in measured])
+    losses = column_losses(floats, [b.reference for b in measured]) if floats is not None else None
     if floats is None or losses is None:
         return None
-    out = [Sample(b.inputs, f, b.reference, loss, b.condition_log10, b.bits) for b, f, loss in zip(before, floats, losses)]
+    again = iter(Sample(b.inputs, f, b.reference, loss, b.condition_log10, b.bits)
+                 for b, f, loss in zip(measured, floats, losses))
+    out = [next(again) if b.digits_lost is not None else _again(shadow, b, False) for b in before]
     for i in check:
         out[i] = _again(shadow, before[i], True)
     return out

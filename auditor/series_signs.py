@@ -83,6 +83,12 @@ def _accumulations(loop: Loop) -> list[Accumulation]:
     return sorted(found, key=lambda a: (a.stmt.lineno, a.stmt.col_offset))
 
 
+def carried(loop: Loop, acc: Accumulation) -> bool:
+    """The accumulator carries over from pass to pass: every binding of it in the loop is an accumulation."""
+    count = sum(1 for a in accumulations(loop) if a.target == acc.target)
+    return _stores(loop).get(acc.target, 0) == count
+
+
 def updates(loop: Loop, name: str) -> list[ast.stmt]:
     """Statements in the loop that rebind `name`."""
     return list(_memo(loop, "updates", lambda: _updates(loop)).get(name, ()))
@@ -227,11 +233,30 @@ def _is_flip(value: ast.expr, name: str) -> bool:
 
 
 def recurrence_ratio(loop: Loop, name: str) -> ast.expr | None:
-    """The new value of a term recurrence `t *= r`, `t /= r`, `t = t * r`, `t = -t * r / k`, else None."""
-    for value in new_values(loop, name):
-        if name in p.names_in(value) and _is_product(value) and not _is_flip(value, name):
-            return value
+    """The new value of a term recurrence `t *= r`, `t /= r`, `t = t * r`, `t = -t * r / k`, else None.
+
+    Only a name updated once per pass is a term recurrence; several updates (Krylov-style state) are not.
+    """
+    values = new_values(loop, name)
+    if len(values) != 1 or _stores(loop).get(name, 0) != 1:
+        return None
+    value = values[0]
+    if name in p.names_in(value) and _is_product(value) and not _is_flip(value, name) and _series_ratio(loop, value, name):
+        return value
     return None
+
+
+def _series_ratio(loop: Loop, value: ast.expr, name: str, depth: int = 2) -> bool:
+    """The ratio depends only on counters and values fixed during the loop (`-x / k`), not on state
+    rebuilt each pass (the Givens sines of an iterative solver)."""
+    idx, stores = index_names(loop), _stores(loop)
+    for other in p.names_in(value) - {name} - idx:
+        if other not in stores:
+            continue
+        inner = new_values(loop, other)
+        if depth == 0 or len(inner) != 1 or other in p.names_in(inner[0]) or not _series_ratio(loop, inner[0], other, depth - 1):
+            return False
+    return True
 
 
 def _is_product(expr: ast.AST) -> bool:

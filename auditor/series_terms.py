@@ -8,7 +8,7 @@ from auditor import patterns as p
 from auditor.rule import Context
 from auditor.series_growth import factorial_weight, fixed_point, index_degree, is_integer_term
 from auditor.series_signs import (
-    Accumulation, Loop, _memo, accumulations, alternation, index_names, new_values, parity_branches, sign_of, updates,
+    Accumulation, Loop, _memo, accumulations, recurrence_ratio, alternation, index_names, new_values, parity_branches, sign_of, updates,
     value_before,
 )
 
@@ -42,7 +42,7 @@ def recurrence(loop: Loop, name: str) -> tuple[ast.stmt, ast.expr] | None:
     if len(stmts) != 1 or len(values) != 1:
         return None
     value = values[0]
-    if name in p.names_in(value) and _product(value):
+    if name in p.names_in(value) and _product(value) and recurrence_ratio(loop, name) is not None:
         return stmts[0], value
     return None
 

@@ -94,7 +94,7 @@ class AlternatingSeries(Rule):
 
     def _loop(self, loop: ast.For | ast.While, ctx: Context) -> Iterator[Hit]:
         for acc in s.accumulations(loop):
-            if ctx.enclosing_loops(acc.stmt)[:1] != [loop] or acc.target in s.index_names(loop):
+            if ctx.enclosing_loops(acc.stmt)[:1] != [loop] or not s.carried(loop, acc) or acc.target in s.index_names(loop):
                 continue
             if any(isinstance(n, (ast.GeneratorExp, ast.ListComp)) for n in ast.walk(acc.term)):
                 continue  # a summed comprehension inside the term is reported on its own call

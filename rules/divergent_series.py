@@ -80,7 +80,7 @@ class DivergentSeries(Rule):
         assert isinstance(node, (ast.For, ast.While))
         idx = s.index_names(node)
         for acc in s.accumulations(node):
-            if ctx.enclosing_loops(acc.stmt)[:1] != [node] or acc.target in idx:
+            if ctx.enclosing_loops(acc.stmt)[:1] != [node] or not s.carried(node, acc) or acc.target in idx:
                 continue
             g = s.growth(ctx, node, acc)
             if g is None:

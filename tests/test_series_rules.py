@@ -78,6 +78,8 @@ CLEAN = {
     "library": "import numpy as np\ndef f(x):\n    return np.exp(-x)\n",
     "positive twin added": "import math\ndef f(x):\n    a = sum(x**(2*k) / math.factorial(2*k) for k in range(20))\n"
     "    b = sum(x**(2*k+1) / math.factorial(2*k+1) for k in range(20))\n    return a + b\n",
+    "reset each pass": "def f(rows, d):\n    for i in range(1, len(rows)):\n        col = rows[i - 1]\n"
+    "        col += (-1)**i * d[i]\n        rows[i] = col\n    return rows\n",
     "divergent goes to its own rule": "def f(x):\n    s, t = 0.0, 1.0\n    for k in range(1, 20):\n        s += t\n"
     "        t *= -k / x\n    return s\n",
 }

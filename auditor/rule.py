@@ -68,6 +68,7 @@ class Context:
         self._imports: ImportTable | None = None
         self._flows: dict[int, ScopeFlow] = {}
         self._memo: dict[tuple[str, int], Any] = {}
+        self._qualnames: dict[int, tuple[ast.AST, str | None]] = {}
         self._line_starts: list[int] | None = None
         self._ascii = True
 
@@ -79,8 +80,8 @@ class Context:
         """
         key = (kind, id(node))
         if key not in self._memo:
-            self._memo[key] = compute()
-        return self._memo[key]  # type: ignore[no-any-return]
+            self._memo[key] = (node, compute())  # keep node alive so its id stays unique
+        return self._memo[key][1]  # type: ignore[no-any-return]
 
     def segment(self, node: ast.AST) -> str:
         """Source text of `node` (like ast.get_source_segment, without re-splitting the file)."""
@@ -138,14 +139,20 @@ class Context:
         return self._imports
 
     def qualname(self, node: ast.AST) -> str | None:
-        """'np.linalg.inv' -> 'numpy.linalg.inv' under `import numpy as np`."""
-        return self.imports.qualname(node)
+        """'np.linalg.inv' -> 'numpy.linalg.inv' under `import numpy as np` (memoised per node)."""
+        key = id(node)
+        names = self._qualnames
+        if key not in names:
+            names[key] = (node, self.imports.qualname(node))  # keep node alive so its id stays unique
+        return names[key][1]
 
     def family(self, node: ast.AST) -> str | None:
         """Canonical numeric family of a call (or callee): `np.exp(x)` -> 'exp'."""
         if isinstance(node, ast.Call):
             node = node.func
-        return family_of(self.imports.qualname(node))
+        if not isinstance(node, (ast.Name, ast.Attribute)):
+            return None
+        return family_of(self.qualname(node))
 
     def is_call(self, node: ast.AST, *families: str) -> bool:
         """True when `node` calls a numeric function of one of `families`."""

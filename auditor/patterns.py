@@ -92,8 +92,8 @@ def same_expr(a: ast.AST, b: ast.AST) -> bool:
 
 def text(ctx: Context, node: ast.AST) -> str:
     """The source text of `node` (falls back to ast.unparse)."""
-    segment = ast.get_source_segment(ctx.source, node)
-    return segment if segment is not None else ast.unparse(node)
+    segment = ctx.segment(node)
+    return segment if segment else ast.unparse(node)
 
 
 def operand_text(ctx: Context, node: ast.AST) -> str:
@@ -339,3 +339,19 @@ def parameter_default(ctx: Context, name: ast.Name) -> ast.expr | None:
     pairs = list(zip(positional[len(positional) - len(args.defaults):], args.defaults))
     pairs += [(a, d) for a, d in zip(args.kwonlyargs, args.kw_defaults) if d is not None]
     return next((d for a, d in pairs if a is b.stmt), None)
+
+
+_RAISED_PRECISION = ("workdps", "workprec", "extradps", "extraprec")
+
+
+def in_raised_precision(ctx: Context, node: ast.AST) -> bool:
+    """True inside `with mp.workdps(n):` (and kin): arbitrary-precision code, not double arithmetic."""
+    for anc in ctx.ancestors(node):
+        if isinstance(anc, (ast.With, ast.AsyncWith)):
+            for item in anc.items:
+                call = item.context_expr
+                func = call.func if isinstance(call, ast.Call) else None
+                name = func.attr if isinstance(func, ast.Attribute) else func.id if isinstance(func, ast.Name) else ""
+                if name in _RAISED_PRECISION:
+                    return True
+    return False

@@ -4,7 +4,7 @@ from __future__ import annotations
 import ast
 from dataclasses import dataclass, field
 
-from auditor.nodes import children
+from auditor.nodes import CHILD_FIELDS, children
 
 Scope = ast.Module | ast.FunctionDef | ast.AsyncFunctionDef | ast.Lambda
 
@@ -77,25 +77,60 @@ def _record(node: ast.AST, flow: ScopeFlow) -> None:
 
 
 _NESTED = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)
+#: Statement fields that hold nested blocks; bindings other than `:=` live only in statements.
+_BLOCKS = ("body", "orelse", "finalbody", "handlers", "cases")
 
 
-def analyse_scope(scope: ast.AST) -> ScopeFlow:
-    """Collect the bindings of one scope without entering nested scopes."""
+def _walrus_targets(node: ast.AST, flow: ScopeFlow) -> None:
+    """Record `name := value` inside the expressions of one statement (not its nested blocks)."""
+    stack = [child for _, child in _expression_children(node)]
+    while stack:
+        sub = stack.pop()
+        if isinstance(sub, ast.NamedExpr):
+            _record(sub, flow)
+        if not isinstance(sub, _NESTED):
+            stack.extend(children(sub))
+
+
+def _expression_children(node: ast.AST) -> list[tuple[str, ast.AST]]:
+    out = []
+    for name in CHILD_FIELDS.get(type(node), ()):
+        if name in _BLOCKS:
+            continue
+        value = getattr(node, name, None)
+        for item in value if isinstance(value, list) else [value]:
+            if isinstance(item, ast.AST):
+                out.append((name, item))
+    return out
+
+
+def analyse_scope(scope: ast.AST, walrus: bool = True) -> ScopeFlow:
+    """Collect the bindings of one scope without entering nested scopes.
+
+    Only statements are visited (assignments, loops, `with`); expressions are searched for
+    `:=` only when `walrus` is set, which the caller decides from the file's text.
+    """
     flow = ScopeFlow()
     if isinstance(scope, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
         args = scope.args
         for a in (*args.posonlyargs, *args.args, *args.kwonlyargs, args.vararg, args.kwarg):
             if a is not None:
                 flow.add(Binding(a.arg, OTHER, a.lineno, a.col_offset, None, a))
-        body: list[ast.AST] = [scope.body] if isinstance(scope, ast.Lambda) else list(scope.body)
-    else:
-        body = list(getattr(scope, "body", []))
-    stack = body[::-1]
+        if isinstance(scope, ast.Lambda):
+            if walrus:
+                _walrus_targets(scope, flow)
+            return flow
+    stack: list[ast.AST] = list(getattr(scope, "body", []))[::-1]
     while stack:
         node = stack.pop()
         _record(node, flow)
         if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)):
             flow.add(Binding(node.name, OTHER, node.lineno, node.col_offset, None, node))
             continue
-        stack.extend(reversed([c for c in children(node) if not isinstance(c, _NESTED)]))
+        if walrus:
+            _walrus_targets(node, flow)
+        for field_name in _BLOCKS:
+            block = getattr(node, field_name, None)
+            if block:
+                stack.extend(reversed(block))
     return flow

@@ -162,7 +162,7 @@ class Context:
     def flow(self, scope: ast.AST) -> ScopeFlow:
         key = id(scope)
         if key not in self._flows:
-            self._flows[key] = analyse_scope(scope)
+            self._flows[key] = analyse_scope(scope, walrus=":=" in self.source)
         return self._flows[key]
 
     def binding(self, name: ast.Name) -> Binding | None:

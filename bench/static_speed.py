@@ -6,6 +6,7 @@ so its peak memory is measured apart), their ratio, peak RSS, and findings per 1
 for each rule.
 
     python bench/static_speed.py [FOLDER ...]
+    python bench/static_speed.py --per-rule [FOLDER ...]   # where the scan's time goes, by rule
 """
 from __future__ import annotations
 
@@ -62,7 +63,41 @@ def auditor_scan(folders: list[Path]) -> tuple[float, dict, int]:
     return seconds, report, peak_kib
 
 
+def per_rule_times(files: list[Path]) -> None:
+    """Seconds spent inside each rule's check (in this process), to find the expensive rules."""
+    sys.path.insert(0, str(ROOT))
+    from auditor.catalog import load_catalog
+    from auditor.scan import scan_text
+
+    spent: Counter[str] = Counter()
+    rules = load_catalog()
+    for rule in rules:
+        original = rule.check
+
+        def timed(node, ctx, _orig=original, _id=rule.id):  # type: ignore[no-untyped-def]
+            start = time.perf_counter()
+            out = list(_orig(node, ctx))
+            spent[_id] += time.perf_counter() - start
+            return out
+
+        rule.check = timed  # type: ignore[method-assign]
+    start = time.perf_counter()
+    for path in files:
+        try:
+            scan_text(path.read_text(encoding="utf-8"), str(path), rules)
+        except (UnicodeDecodeError, OSError):
+            continue
+    total = time.perf_counter() - start
+    print(f"\nin-process scan {total:.2f} s; time inside each rule:")
+    for rule_id, secs in spent.most_common():
+        print(f"  {rule_id:<30} {secs:8.2f} s")
+
+
 def main(argv: list[str]) -> None:
+    if argv and argv[0] == "--per-rule":
+        folders = [Path(a) for a in argv[1:]] or [package_dir("numpy"), package_dir("scipy")]
+        per_rule_times(sorted(p for folder in folders for p in folder.rglob("*.py")))
+        return
     folders = [Path(a) for a in argv] or [package_dir("numpy"), package_dir("scipy")]
     files = sorted(p for folder in folders for p in folder.rglob("*.py"))
     # warm the page cache so neither side pays for the first read

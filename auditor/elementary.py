@@ -152,6 +152,8 @@ def is_nonnegative(ctx: Context, expr: ast.expr, depth: int = 4) -> bool:
         return True
     if isinstance(expr, ast.BinOp) and isinstance(expr.op, (ast.Add, ast.Mult, ast.Div)):
         return is_nonnegative(ctx, expr.left, depth - 1) and is_nonnegative(ctx, expr.right, depth - 1)
+    if isinstance(expr, ast.BinOp) and isinstance(expr.op, ast.Pow):  # 2.0**k, abs(x)**p
+        return is_nonnegative(ctx, expr.left, depth - 1)
     return False
 
 

@@ -22,15 +22,56 @@ _MSG = ("when b*b is much larger than |4*a*c| one root of the textbook formula c
         "the small root is 25% wrong); use q = -0.5*(b + copysign(sqrt(disc), b)) and the roots q/a and c/q")
 
 
+def sign_guarded(ctx: Context, node: ast.AST, b: ast.expr) -> bool:
+    """True inside a branch chosen by a test on b (`if b > 0:`, `... if b < 0 else ...`, `np.where(b > 0, ...)`):
+    the author already picks the formula by the sign of b (as this rule's own rewrite does)."""
+    def tests_b(test: ast.AST) -> bool:
+        return any(p.same_expr(n, b) for n in ast.walk(test))
+
+    child: ast.AST = node
+    for anc in ctx.ancestors(node):
+        if isinstance(anc, (ast.IfExp, ast.If)) and child is not anc.test and tests_b(anc.test):
+            return True
+        if isinstance(anc, ast.Call) and ctx.family(anc) == "where" and anc.args and child is not anc.args[0] \
+                and tests_b(anc.args[0]):
+            return True
+        if isinstance(anc, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
+            return False
+        child = anc
+    return False
+
+
+def split_over(node: ast.AST) -> tuple[ast.expr, ast.expr] | None:
+    """(-b + sqrt(d), 2*a) for the split spelling `-b / (2*a) + sqrt(d) / (2*a)`; else None."""
+    if not isinstance(node, ast.BinOp) or not isinstance(node.op, (ast.Add, ast.Sub)):
+        return None
+    terms = alg.signed_terms(node)
+    if len(terms) != 2 or not all(isinstance(t, ast.BinOp) and isinstance(t.op, ast.Div) for t, _ in terms):
+        return None
+    (t1, s1), (t2, s2) = terms
+    assert isinstance(t1, ast.BinOp) and isinstance(t2, ast.BinOp)
+    if not p.same_expr(t1.right, t2.right):
+        return None
+    return alg.build_sum([(t1.left, s1), (t2.left, s2)]), t1.right
+
+
+def twice(den: ast.expr) -> tuple[ast.expr | None] | None:
+    """(a,) for a denominator 2*a ((None,) for the literal 2); None when it is not twice something."""
+    factors = alg.mult_factors(den)
+    two = next((i for i, f in enumerate(factors) if p.is_number(f, 2)), None)
+    if two is None:
+        return None
+    rest = factors[:two] + factors[two + 1:]
+    return (alg.build_product(rest) if rest else None,)
+
+
 def halved_by(ctx: Context, num: ast.expr) -> tuple[ast.expr, ast.expr | None] | None:
     """(root node, a) when `num` is divided by 2*a: `num / (2*a)`, `num * (0.5/a)`, `0.5*num/a`, `num/2/a`."""
     parent, grand = ctx.parent(num), ctx.parent(ctx.parent(num) or num)
     if isinstance(parent, ast.BinOp) and isinstance(parent.op, ast.Div) and parent.left is num:
-        factors = alg.mult_factors(ctx.origin(parent.right))
-        if any(p.is_number(f, 2) for f in factors):
-            rest = list(factors)
-            rest.pop(next(i for i, f in enumerate(rest) if p.is_number(f, 2)))
-            return parent, alg.build_product(rest) if rest else None
+        a = twice(ctx.origin(parent.right))
+        if a is not None:
+            return parent, a[0]
         if isinstance(grand, ast.BinOp) and isinstance(grand.op, ast.Div) and grand.left is parent \
                 and p.is_number(parent.right, 2):
             return grand, grand.right
@@ -99,14 +140,15 @@ class QuadraticRoots(Rule):
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
         if isinstance(node, ast.BinOp) and isinstance(ctx.parent(node), ast.UnaryOp):
             return  # `-(b + d)`: matched at the unary minus, which carries the sign
-        shape = root_sum(ctx, node)
-        if shape is None or not is_discriminant(shape):
+        split = split_over(node)
+        shape = root_sum(ctx, split[0] if split else node)
+        if shape is None or not is_discriminant(shape) or sign_guarded(ctx, node, shape.other):
             return
         assert isinstance(node, ast.expr)
         if not stable_origin(ctx, shape.radicand, node):
             yield Hit(node, _MSG)
             return
-        target, stable = self._stable(ctx, node, shape)
+        target, stable = self._stable(ctx, node, shape, split[1] if split else None)
         test = cancels_when(ctx, shape)
         if shape.module in ("numpy", "jax.numpy", "cupy"):
             where, imports = spelled_like(ctx, shape.module, "where")
@@ -116,10 +158,13 @@ class QuadraticRoots(Rule):
         yield Hit(target, _MSG, rewrite=rewrite, imports=imports)
 
     @staticmethod
-    def _stable(ctx: Context, num: ast.expr, shape: RootSum) -> tuple[ast.expr, ast.expr]:
+    def _stable(ctx: Context, num: ast.expr, shape: RootSum, den: ast.expr | None) -> tuple[ast.expr, ast.expr]:
         """(node to replace, its cancellation-free form): the whole root when it is divided by 2*a."""
         conjugate = alg.build_sum([(shape.other, shape.other_sign), (shape.root, -shape.root_sign)])
         halved = halved_by(ctx, num)
+        if den is not None:
+            a = twice(den)
+            halved = (num, a[0]) if a is not None else None
         if halved is not None:
             twice_c = product_of_roots(shape, halved[1])
             if twice_c is not None:

@@ -165,6 +165,12 @@ NUMERIC = [
      mp_ref(lambda a, b, c: -(b + mpmath.sqrt(b * b - 4 * a * c)) / (2 * a))),
     ("quadratic-roots", "import math\ndef f(p, q):\n    return (-p + math.sqrt(p * p - 4 * q)) / 2\n",
      [(3.0, 1.0), (-3.0, 1.0)], [(1e9, 2.0)], mp_ref(lambda p, q: (-p + mpmath.sqrt(p * p - 4 * q)) / 2)),
+    ("sqrt-difference", "import math\ndef f(e):\n    return 1 - math.sqrt(1 - e)\n", [(0.5,), (0.9,)], [(1e-9,)],
+     mp_ref(lambda e: 1 - mpmath.sqrt(1 - e))),
+    ("unguarded-hypot", "import math\ndef f(x, y):\n    return math.sqrt(x * x + y * y)\n", [(3.0, 4.0), (-1.5, 0.2)],
+     [(3e200, 4e200), (3e-170, 4e-170)], mp_ref(lambda x, y: mpmath.sqrt(x * x + y * y))),
+    ("atan-of-ratio", "import math\ndef f(y, x):\n    return math.atan(y / abs(x))\n", [(1.0, 2.0), (-3.0, 0.5)],
+     [], mp_ref(lambda y, x: mpmath.atan2(y, abs(x)))),  # a quadrant rule: nothing to gain in digits
     ("square-difference", "def f(x, d):\n    y = x + d\n    return y**2 - x**2\n", [(1.0, 0.5), (-3.0, 1.0)], [(1.0, 1e-9)],
      mp_ref(lambda x, d: (x + d) ** 2 - x ** 2)),
     ("complement-of-cdf", "from scipy.stats import norm\ndef f(z):\n    return 1 - norm.cdf(z)\n", [(0.3,), (-1.0,)], [(7.0,)],
@@ -262,3 +268,41 @@ def test_new_style_distributions_use_ccdf():
     [f] = findings("from scipy import stats\ndef f(x):\n    X = stats.Normal(mu=0.0, sigma=1.0)\n    return 1 - X.cdf(x)\n",
                    "complement-of-cdf")
     assert f.rewrite is not None and f.rewrite.text == "X.ccdf(x)"
+
+
+def test_positive_powers_count_as_known_sign():
+    [f] = findings("import math\ndef f(x, prec):\n    return math.atan(x / 2.0**prec)\n", "atan-of-ratio")
+    assert f.severity.value == "note" and f.rewrite is not None and f.rewrite.text == "math.atan2(x, 2.0 ** prec)"
+
+
+def test_quadratic_split_spelling():
+    code = "import math\ndef f(a, b, c):\n    return -b / (2 * a) + math.sqrt(b * b - 4 * a * c) / (2 * a)\n"
+    original, fixed = function_of(code), function_of(rewritten(code, "quadratic-roots"))
+    for args in ((1.0, 3.0, 1.0), (1.0, -3.0, 1.0), (-2.0, 5.0, 1.0)):
+        assert fixed(*args) == pytest.approx(original(*args), rel=1e-12)
+    with mpmath.workdps(50):
+        ref = (-mpmath.mpf(1e8) + mpmath.sqrt(mpmath.mpf(1e16) - 4)) / 2
+    assert rel_err(fixed(1.0, 1e8, 1.0), ref) < 1e-12
+
+
+def test_atan2_rewrite_survives_the_axis():
+    code = "import math\ndef f(y, x):\n    return math.atan(y / abs(x))\n"
+    original, fixed = function_of(code), function_of(rewritten(code, "atan-of-ratio"))
+    with pytest.raises(ZeroDivisionError):
+        original(1.0, 0.0)
+    assert fixed(1.0, 0.0) == pytest.approx(math.pi / 2, rel=1e-15)  # atan2(1, 0) = pi/2 (C99 F.9.1.4)
+
+
+@pytest.mark.parametrize("code", [
+    "import math\ndef f(a, b, c):\n    d = math.sqrt(b * b - 4 * a * c)\n    if b >= 0:\n        x = (-b - d) / (2 * a)\n"
+    "    else:\n        x = (-b + d) / (2 * a)\n    return x, c / (a * x)\n",
+    "import numpy as np\ndef f(a, b, c):\n    d = np.sqrt(b * b - 4 * a * c)\n"
+    "    return np.where(b > 0, 2 * c / (-b - d), (-b + d) / (2 * a))\n",
+])
+def test_quadratic_roots_chosen_by_the_sign_of_b_stay_clean(code):
+    assert rules_hit(code, "quadratic-roots") == []
+
+
+def test_quadratic_fix_is_not_flagged_again():
+    code = "import math\ndef f(a, b, c):\n    return (-b + math.sqrt(b * b - 4 * a * c)) / (2 * a)\n"
+    assert rules_hit(rewritten(code, "quadratic-roots"), "quadratic-roots") == []

@@ -118,6 +118,10 @@ def monic_root(p, q):
     return (-p + math.sqrt(p * p - 4 * q)) / 2  # expect: quadratic-roots
 
 
+def split_intersection(a, b, c):
+    return -b / (2 * a) + np.sqrt(b * b - 4 * a * c) / (2 * a)  # expect: quadratic-roots
+
+
 def numerator_only(a, b, c):
     return -b + math.sqrt(b * b - 4 * a * c)  # expect: quadratic-roots
 

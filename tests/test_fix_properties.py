@@ -197,20 +197,9 @@ def test_fixed_unstable_findings_gain_at_least_two_digits(measured_fix, capsys):
     assert not small, "gain below 2 digits:\n" + "\n".join(small)
 
 
-#: Rules known to flag their own stable output, which a second fix then rewrites again. Known
-#: issue: quadratic-roots flags `-b - sqrt(b*b - 4*a*c)` inside the `if b > 0` branch of its
-#: own guarded form, and the dynamic pass, measuring that piece without the guard, verifies it.
-KNOWN_NOT_IDEMPOTENT = {"quadratic-roots"}
-
-
 def test_second_fix_is_a_no_op(measured_fix):
-    others = measured_fix.second_rules - KNOWN_NOT_IDEMPOTENT
-    assert not others, (f"a second fix still applies rewrites of {sorted(others)}:\n"
-                        f"{measured_fix.second_diff}\n{measured_fix.second_err}")
-    if not measured_fix.second_rules:
-        assert measured_fix.second_diff == ""
-
-
-@pytest.mark.xfail(strict=True, reason="quadratic-roots re-flags its own guarded stable form (known issue)")
-def test_second_fix_is_a_no_op_for_every_rule(measured_fix):
-    assert measured_fix.second_diff == "", measured_fix.second_diff
+    # A rule that flags its own stable output (quadratic-roots once did, inside the `if b > 0`
+    # branch of its guarded form) makes a second fix rewrite the code again.
+    assert not measured_fix.second_rules and measured_fix.second_diff == "", (
+        f"a second fix still applies rewrites of {sorted(measured_fix.second_rules)}:\n"
+        f"{measured_fix.second_diff}\n{measured_fix.second_err}")

@@ -23,6 +23,7 @@ class Binding:
     value: ast.expr | None  #: the value expression (for AUG the right operand), when known
     stmt: ast.AST  #: the binding statement or comprehension
     op: ast.operator | None = None  #: the operator of an augmented assignment
+    effect: tuple[int, int] | None = None  #: (line, col) from which the binding is visible; None: (line, column)
 
 
 @dataclass(slots=True)
@@ -38,42 +39,57 @@ class ScopeFlow:
         return self.bindings.get(name, [])
 
     def reaching(self, name: str, line: int, column: int) -> Binding | None:
-        """The last binding of `name` that starts before (line, column)."""
+        """The last binding of `name` in effect at (line, column).
+
+        A binding takes effect once its value has been evaluated, so in `a = a * 2` the `a` on
+        the right sees the previous binding, not this one.
+        """
         best: Binding | None = None
         for b in self.bindings.get(name, ()):
-            if (b.line, b.column) < (line, column):
+            if (b.effect or (b.line, b.column)) <= (line, column):
                 best = b
         return best
 
 
-def _targets(target: ast.expr, value: ast.expr | None, stmt: ast.AST, flow: ScopeFlow, kind: str) -> None:
+def _end(node: ast.AST | None, fallback: ast.AST) -> tuple[int, int]:
+    """Where evaluating `node` finishes: the point a binding from it takes effect."""
+    node = node if node is not None and getattr(node, "end_lineno", None) is not None else fallback
+    return (node.end_lineno or node.lineno, node.end_col_offset or 0)  # type: ignore[attr-defined]
+
+
+def _targets(
+    target: ast.expr, value: ast.expr | None, stmt: ast.AST, flow: ScopeFlow, kind: str,
+    effect: tuple[int, int] | None = None,
+) -> None:
     if isinstance(target, ast.Name):
-        flow.add(Binding(target.id, kind, stmt.lineno, stmt.col_offset, value, stmt))  # type: ignore[attr-defined]
+        flow.add(Binding(target.id, kind, stmt.lineno, stmt.col_offset, value, stmt, effect=effect))  # type: ignore[attr-defined]
     elif isinstance(target, (ast.Tuple, ast.List)):
         elts = value.elts if isinstance(value, (ast.Tuple, ast.List)) and len(value.elts) == len(target.elts) else None
         for i, sub in enumerate(target.elts):
             inner = elts[i] if elts is not None else None
-            _targets(sub, inner, stmt, flow, UNPACK if kind == ASSIGN else kind)
+            _targets(sub, inner, stmt, flow, UNPACK if kind == ASSIGN else kind, effect)
     elif isinstance(target, ast.Starred):
-        _targets(target.value, None, stmt, flow, OTHER)
+        _targets(target.value, None, stmt, flow, OTHER, effect)
 
 
 def _record(node: ast.AST, flow: ScopeFlow) -> None:
     if isinstance(node, ast.Assign):
         for target in node.targets:
-            _targets(target, node.value, node, flow, ASSIGN)
+            _targets(target, node.value, node, flow, ASSIGN, _end(node.value, node))
     elif isinstance(node, ast.AnnAssign) and node.value is not None:
-        _targets(node.target, node.value, node, flow, ASSIGN)
+        _targets(node.target, node.value, node, flow, ASSIGN, _end(node.value, node))
     elif isinstance(node, ast.AugAssign) and isinstance(node.target, ast.Name):
-        flow.add(Binding(node.target.id, AUG, node.lineno, node.col_offset, node.value, node, node.op))
+        flow.add(Binding(node.target.id, AUG, node.lineno, node.col_offset, node.value, node, node.op,
+                         effect=_end(node.value, node)))
     elif isinstance(node, (ast.For, ast.AsyncFor)):
-        _targets(node.target, node.iter, node, flow, LOOP)
+        _targets(node.target, node.iter, node, flow, LOOP, _end(node.iter, node))
     elif isinstance(node, ast.NamedExpr):
-        flow.add(Binding(node.target.id, ASSIGN, node.lineno, node.col_offset, node.value, node))
+        flow.add(Binding(node.target.id, ASSIGN, node.lineno, node.col_offset, node.value, node,
+                         effect=_end(node.value, node)))
     elif isinstance(node, (ast.With, ast.AsyncWith)):
         for item in node.items:
             if item.optional_vars is not None:
-                _targets(item.optional_vars, None, node, flow, OTHER)
+                _targets(item.optional_vars, None, node, flow, OTHER, _end(item.context_expr, node))
 
 
 _NESTED = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)

@@ -12,6 +12,8 @@ from auditor.numerics.budget import NotEvaluable
 from auditor.numerics.chart import digits_chart
 from auditor.numerics.inputs import DomainSyntaxError, Range, parse_domain, sample_points
 from auditor.numerics.interp import SourceModule
+from auditor.numerics.matrices import describe_roles, matrix_roles, with_matrices
+from auditor.numerics.plan import ARRAY_SIZE, array_names, with_arrays
 from auditor.numerics.run import Sample, measure_points
 from auditor.numerics.summary import not_measured, summarize
 from auditor.numerics.unit import Unit, compile_shadow, free_names
@@ -66,7 +68,10 @@ def parse_at(items: Sequence[str]) -> dict[str, float]:
     return out
 
 
-def plan_probe(names: Sequence[str], var: Sequence[str], at: dict[str, float], samples: int, seed: int) -> tuple[list[dict[str, Any]], str]:
+def plan_probe(names: Sequence[str], var: Sequence[str], at: dict[str, float], samples: int, seed: int,
+               node: ast.expr | None = None) -> tuple[list[dict[str, Any]], str]:
+    """Points over the --var box (or at --at); names the expression uses as arrays, matrices or
+    vectors (numerics/plan.py, numerics/matrices.py) get arrays, assumed and said so."""
     try:
         ranges = parse_domain(", ".join(var)) if var else {}
     except DomainSyntaxError as exc:
@@ -74,13 +79,24 @@ def plan_probe(names: Sequence[str], var: Sequence[str], at: dict[str, float], s
     unknown = sorted((set(ranges) | set(at)) - set(names))
     if unknown:
         raise ProbeError(f"the expression has no variable {', '.join(unknown)}")
-    ranges = {n: Range(r.lo, r.hi, False) for n, r in ranges.items() if n not in at}
-    assumed = [n for n in names if n not in ranges and n not in at]
-    count = 1 if not assumed and all(r.lo == r.hi for r in ranges.values()) else samples
-    points = sample_points(ranges, assumed, at, count, seed)
+    roles = matrix_roles([node], names)
+    linear = roles.matrices | roles.vectors
+    arrays = array_names([node], names) - linear
+    ranges = {n: Range(r.lo, r.hi, False) for n, r in ranges.items() if n not in at and n not in linear}
+    assumed = [n for n in names if n not in ranges and n not in at and n not in linear]
+    single = not assumed and all(r.lo == r.hi for r in ranges.values()) and not arrays and not roles
+    points = sample_points({n: r for n, r in ranges.items() if n not in arrays}, [n for n in assumed if n not in arrays],
+                           at, 1 if single else samples, seed)
     parts = [f"{n}={r.lo:g}..{r.hi:g}" for n, r in sorted(ranges.items())] + [f"{n}={v:g}" for n, v in sorted(at.items())]
-    if assumed:
-        parts.append(f"{', '.join(assumed)} assumed: |value| log-uniform in 1e-12..1e12, both signs, plus points near 0, 1 and large")
+    scalars = [n for n in assumed if n not in arrays]
+    if scalars:
+        parts.append(f"{', '.join(scalars)} assumed: |value| log-uniform in 1e-12..1e12, both signs, plus points near 0, 1 and large")
+    if arrays:
+        points = with_arrays(points, arrays, ranges, seed)
+        parts.append(f"{', '.join(sorted(arrays))}: arrays of {ARRAY_SIZE} values each")
+    if roles:
+        points = with_matrices(points, roles, seed)
+        parts.append(describe_roles(roles))
     return points, "inputs: " + "; ".join(parts) if parts else "inputs: none"
 
 
@@ -95,7 +111,7 @@ def run_probe(expression: str, var: Sequence[str], at_items: Sequence[str], samp
         raise ProbeError("--samples must be at least 1")
     node, module = parse_expression(expression), prelude_module()
     names = free_names(node, module)
-    points, reason = plan_probe(names, var, parse_at(at_items), samples, seed)
+    points, reason = plan_probe(names, var, parse_at(at_items), samples, seed, node)
     try:
         found, bits, note = measure_expression(node, module, names, points)
     except NotEvaluable as exc:

@@ -188,6 +188,8 @@ def _mp(name: str) -> Callable[..., Any]:
 def _ref_sum(values: Any, *args: Any, **kwargs: Any) -> Any:
     if values.__class__ is np.ndarray:
         return np.sum(values, *args, **kwargs)
+    if isinstance(values, (mpmath.mpf, mpmath.mpc, int, float)):
+        return values  # np.sum of a scalar is the scalar
     return builtins.sum(values)
 
 
@@ -240,6 +242,37 @@ _BUILTINS: dict[str, Pair] = {
     "divmod": (divmod, divmod),
 }
 
+def _float_method(name: str) -> Callable[..., Any]:
+    def call(obj: Any, *args: Any, **kwargs: Any) -> Any:
+        if not isinstance(obj, (np.ndarray, np.generic)):
+            raise TypeError(f"{type(obj).__name__} has no method {name} here")
+        return getattr(obj, name)(*args, **kwargs)
+
+    return call
+
+
+def _ref_method(name: str) -> Callable[..., Any]:
+    special = {"var": _ref_var, "std": lambda *a, **k: mpmath.sqrt(_ref_var(*a, **k))}.get(name)
+
+    def call(obj: Any, *args: Any, **kwargs: Any) -> Any:
+        arr = obj if obj.__class__ is np.ndarray else np.array(obj, dtype=object)
+        if special is not None:
+            if args or kwargs.get("axis") is not None:
+                raise TypeError(f"{name} along an axis is not evaluated")
+            return special(arr, **kwargs)
+        return getattr(arr, name)(*args, **kwargs)
+
+    return call
+
+
+#: Array methods (`v.sum()`, `A.dot(b)`, `A.T` is an attribute): the real numpy method on the
+#: float side; on the reference side the same method of the object array (sums and products of
+#: mpf numbers at the working precision), variance and deviation two-pass over mpf.
+METHODS: dict[str, Pair] = {
+    n: (_float_method(n), _ref_method(n))
+    for n in ("sum", "mean", "var", "std", "max", "min", "prod", "cumsum", "dot", "copy", "ravel", "flatten", "transpose")
+}
+
 #: Named constants: float value as the code sees it; the reference takes the same binary value,
 #: so the constant's own rounding is part of the unit as written, not an error of the arithmetic.
 CONSTANTS: dict[str, Any] = {
@@ -258,7 +291,14 @@ def lookup(qualname: str) -> Pair | None:
         return table[qualname]
     if qualname.startswith("scipy.special."):
         return _scipy_table().get(qualname)
-    return None
+    return _linalg_table().get(qualname)
+
+
+@lru_cache(maxsize=1)
+def _linalg_table() -> dict[str, Pair]:
+    from auditor.numerics.linalg import pairs
+
+    return pairs()
 
 
 @lru_cache(maxsize=1)

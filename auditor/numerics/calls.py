@@ -6,7 +6,7 @@ import ast
 from collections.abc import Callable
 from typing import Any
 
-from auditor.numerics.allow import is_builtin
+from auditor.numerics.allow import METHODS, is_builtin
 from auditor.numerics.budget import MAX_LENGTH, BudgetExceeded, NotEvaluable
 from auditor.numerics.interp import Env, ExprCompiler, Fn, describe
 
@@ -51,6 +51,8 @@ class CallCompiler(ExprCompiler):
     def _Call(self, node: ast.Call) -> Fn:
         if any(isinstance(a, ast.Starred) for a in node.args) or any(k.arg is None for k in node.keywords):
             raise NotEvaluable(f"uses * or ** arguments ({describe(node)})")
+        if isinstance(node.func, ast.Attribute) and self.module.imports.qualname(node.func) is None:
+            return self._method_call(node, node.func)
         fn = self.callee(node.func)
         args = [self.expr(a) for a in node.args]
         keywords = [(str(k.arg), self.expr(k.value)) for k in node.keywords]
@@ -65,6 +67,17 @@ class CallCompiler(ExprCompiler):
                 return lambda env: fn(a(env), b(env))
             return lambda env: fn(*[g(env) for g in args])
         return lambda env: fn(*[g(env) for g in args], **{k: g(env) for k, g in keywords})
+
+    def _method_call(self, node: ast.Call, func: ast.Attribute) -> Fn:
+        """`v.sum()`, `A.dot(b)`, ...: allowed array methods on a value (never on a module)."""
+        impl = METHODS.get(func.attr)
+        if impl is None:
+            raise NotEvaluable(f"calls {describe(func)} (not an allowed array method)")
+        method = impl[1] if self.backend.reference else impl[0]
+        obj = self.expr(func.value)
+        args = [self.expr(a) for a in node.args]
+        keywords = [(str(k.arg), self.expr(k.value)) for k in node.keywords if not (self.backend.reference and k.arg == "dtype")]
+        return lambda env: method(obj(env), *[g(env) for g in args], **{k: g(env) for k, g in keywords})
 
     # -- comprehensions --------------------------------------------------------
     def _comprehension(self, elt: ast.expr, generators: list[ast.comprehension]) -> Fn:

@@ -109,7 +109,7 @@ def sample_points(
         columns[name] = _shuffled_tail(values, rng, 3)
     for name in sorted(assumed):
         columns[name] = _shuffled_tail(sample_default(n, rng), rng, 0)
-    size = max((len(c) for c in columns.values()), default=1)
+    size = max((len(c) for c in columns.values()), default=n)  # no scalar column: n points to fill with arrays
     points = []
     for i in range(size):
         point = {name: col[i % len(col)] for name, col in columns.items()}

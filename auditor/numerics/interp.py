@@ -24,14 +24,15 @@ Fn = Callable[[Env], Any]
 _BINARY: dict[type, Callable[[Any, Any], Any]] = {
     ast.Add: operator.add, ast.Sub: operator.sub, ast.Div: operator.truediv, ast.FloorDiv: operator.floordiv,
     ast.Mod: operator.mod, ast.BitAnd: operator.and_, ast.BitOr: operator.or_, ast.BitXor: operator.xor,
-    ast.Mult: checked_mul, ast.Pow: checked_pow,
+    ast.Mult: checked_mul, ast.Pow: checked_pow, ast.MatMult: operator.matmul,
 }
 _COMPARE: dict[type, Callable[[Any, Any], Any]] = {
     ast.Eq: operator.eq, ast.NotEq: operator.ne, ast.Lt: operator.lt, ast.LtE: operator.le,
     ast.Gt: operator.gt, ast.GtE: operator.ge, ast.Is: operator.is_, ast.IsNot: operator.is_not,
     ast.In: lambda a, b: a in b, ast.NotIn: lambda a, b: a not in b,
 }
-_SAFE_ATTRS = {"real", "imag"}
+#: Attributes read from values (numbers and arrays only ever live in the evaluator).
+_SAFE_ATTRS = {"real", "imag", "T", "shape", "size", "ndim"}
 
 
 @dataclass(slots=True)

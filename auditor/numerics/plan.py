@@ -10,6 +10,7 @@ from typing import Any
 import numpy as np
 
 from auditor.numerics.inputs import Range, parse_domain, sample_points
+from auditor.numerics.matrices import describe_roles, matrix_roles, with_matrices
 
 _INT_FUNCS = {"range", "factorial", "comb", "perm", "isqrt"}
 _SELF = ("self", "cls")
@@ -148,7 +149,10 @@ def plan_inputs(
 ) -> InputPlan:
     """Points for every input name, and the reason that says where they came from: recorded
     values, the domain, call-site literals, defaults and annotations, else the assumed box."""
-    d = _Draft([n for n in names if n not in _SELF], integer_names(function, expr), {n: None for n in names if n in _SELF})
+    roles = matrix_roles([function, expr], names)
+    linear = roles.matrices | roles.vectors
+    d = _Draft([n for n in names if n not in _SELF and n not in linear], integer_names(function, expr),
+               {n: None for n in names if n in _SELF})
     if recorded and all(n in p for p in recorded for n in d.todo):
         points = [{**d.fixed, **{n: _typed(p[n], n in d.integers) for n in d.todo}} for p in recorded]
         return InputPlan(points, f"inputs: {len(points)} recorded point(s)")
@@ -156,8 +160,8 @@ def plan_inputs(
         _from_domain(d, domain_text)
     _from_call_sites(d, call_points)
     _from_defaults(d, function)
-    arrays = array_names([function, expr], names)
-    single = not d.assumed and all(r.lo == r.hi for r in d.ranges.values()) and not d.exact and not arrays
+    arrays = array_names([function, expr], names) - linear
+    single = not d.assumed and all(r.lo == r.hi for r in d.ranges.values()) and not d.exact and not arrays and not roles
     count = 1 if single else samples
     points = sample_points(d.ranges, d.assumed, d.fixed, count, seed)
     for n in [n for n, r in d.ranges.items() if r.integer]:
@@ -167,6 +171,9 @@ def plan_inputs(
     if arrays:
         points = with_arrays(points, arrays, d.ranges, seed)
         d.reasons.append(f"{', '.join(sorted(arrays))}: arrays of {ARRAY_SIZE} values each")
+    if roles:
+        points = with_matrices(points, roles, seed)
+        d.reasons.append(describe_roles(roles))
     return InputPlan(points, "inputs: " + "; ".join(d.reasons) if d.reasons else "inputs: none (a constant unit)")
 
 

@@ -26,6 +26,8 @@ HARD_SECONDS = 10.0
 #: Loop passes above which only two pilot points settle the precision.
 LONG_LOOP = 2_000
 PILOT = 6
+#: Samples of a unit with matrix inputs (each reference factors small matrices in mpmath).
+MATRIX_SAMPLES = 64
 
 
 @dataclass(slots=True)
@@ -43,11 +45,13 @@ class Shadow:
     fast_fn: Callable[..., Any] | None = None  #: the unit on MPFR numbers (None: it needs mpmath)
     batches: tuple[Any, Any, Any, Any] | None = None  #: column-wise float, mpmath, MPFR, MPFR-with-gradient twins
     fast: bool = False  #: use `fast_fn` for this batch (scalar inputs only); set by `uses_arrays`
+    matrices: tuple[str, ...] = ()  #: matrix inputs of this batch: norm-wise loss, kappa(A) (numerics/normwise.py)
 
 
 def uses_arrays(shadow: Shadow, points: Sequence[dict[str, Any]]) -> None:
     shadow.arrays = any(v.__class__ is tuple for p in points[:1] for v in p.values())
     shadow.fast = shadow.fast_fn is not None and not shadow.arrays
+    shadow.matrices = tuple(k for p in points[:1] for k, v in p.items() if v.__class__ is tuple and v and v[0].__class__ is tuple)
 
 
 class Sample(NamedTuple):
@@ -63,6 +67,7 @@ class Sample(NamedTuple):
     note: str = ""  #: why the sample was excluded, if it was
     digits: float = mx.DIGITS_FLOAT64  #: digits the float result carries (7.22 for float32)
     index: int = 0  #: which output component (for tuple or array results)
+    whole: tuple[Any, ...] | None = None  #: every reference component, for units measured norm-wise
 
 
 def flatten(value: Any) -> list[Any]:
@@ -192,6 +197,10 @@ def finish_sample(shadow: Shadow, point: dict[str, Any], fv: list[Any], rv: list
     column run prepared it at `bits` (numerics/sweep.py), else it is computed here."""
     if len(rv) != len(fv):
         return Sample(point, note="float and reference runs returned different shapes")
+    if shadow.matrices:
+        from auditor.numerics.normwise import finish_normwise  # it builds on this module
+
+        return finish_normwise(shadow, point, fv, rv, bits)
     j, loss = _worst_component(fv, rv)
     if _needs_recheck(loss, mx.digits_of(fv[j]), bits):
         condition = None  # computed again at the higher precision
@@ -282,6 +291,8 @@ def measure_points(shadow: Shadow, points: Sequence[dict[str, Any]], seconds: fl
         steps = _float_first(shadow, points[0])
         bits = settle_bits(shadow, points, PILOT + 8 if steps <= LONG_LOOP else 2)
     count = len(points) if steps == 0 else max(MIN_SAMPLES, STEP_ALLOWANCE // steps)
+    if shadow.matrices:
+        count = min(count, MATRIX_SAMPLES)
     chosen = spread(points, count)
     samples: list[Sample] = []
     with quiet(bits):
@@ -295,6 +306,11 @@ def measure_points(shadow: Shadow, points: Sequence[dict[str, Any]], seconds: fl
             samples.append(measure_sample(shadow, point, bits))
             if time.monotonic() - start > seconds and len(samples) < len(chosen):
                 return samples, bits, f"stopped after {len(samples)} of {len(points)} samples (time limit {seconds:g} s)"
+    if shadow.matrices:
+        from auditor.numerics.normwise import NORMWISE_NOTE
+
+        fewer = f"measured {len(samples)} of {len(points)} samples (matrix inputs: each reference runs in mpmath); " if len(samples) < len(points) else ""
+        return samples, bits, fewer + NORMWISE_NOTE
     if len(samples) < len(points):
         return samples, bits, f"measured {len(samples)} of {len(points)} samples (each runs {steps} loop passes)"
     return samples, bits, ""

@@ -103,6 +103,27 @@ def test_nested_loops_flag_the_inner_series_only():
     assert [h.span.line for h in findings(code, ALT)] == [5]
 
 
+def test_complex_series_rewrites_to_cmath():
+    code = "import math\ndef f(z):\n    s, t = 0j, 1 + 0j\n    for k in range(1, 60):\n        s += t\n        t *= -z / k\n    return s\n"
+    (hit,) = findings(code, ALT)
+    assert hit.rewrite.text == "s = cmath.exp(-z)" and hit.rewrite.imports == ("import cmath",)
+    z = complex(3.0, 4.0)
+    assert load(apply_rewrite(code, hit), "f")(z) == pytest.approx(complex(mpmath.exp(-mpmath.mpc(z))), rel=1e-15)
+
+
+def test_rewrite_uses_the_files_import_style():
+    code = "from math import exp\ndef f(x):\n    s, t = 0.0, 1.0\n    for k in range(1, 60):\n        s += t\n        t *= -x / k\n    return s\n"
+    (hit,) = findings(code, ALT)
+    assert hit.rewrite.text == "s = exp(-x)" and hit.rewrite.imports == ()
+
+
+def test_no_rewrite_when_the_loop_state_is_used_afterwards():
+    code = ("import math\ndef f(x):\n    s, t = 0.0, 1.0\n    for k in range(1, 60):\n        s += t\n        t *= -x / k\n"
+            "    return s, t\n")
+    (hit,) = findings(code, ALT)
+    assert hit.rewrite is None and "math.exp(-x)" in hit.message
+
+
 def test_severity_note_for_log_series():
     code = "def f(x):\n    return sum((-1)**(k+1) * x**k / k for k in range(1, 50))\n"
     (hit,) = findings(code, ALT)

@@ -4,6 +4,7 @@ from __future__ import annotations
 import ast
 from collections.abc import Iterator
 
+from auditor.nodes import walk
 from auditor.rule import Context
 
 Number = int | float | complex
@@ -40,7 +41,7 @@ def is_integer_literal(node: ast.AST) -> bool:
 
 def names_in(expr: ast.AST) -> set[str]:
     """Free variable names read by an expression (attribute bases included)."""
-    return {n.id for n in ast.walk(expr) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Load)}
+    return {n.id for n in walk(expr) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Load)}
 
 
 def is_negated(node: ast.AST) -> bool:
@@ -170,7 +171,7 @@ def is_integer_valued(ctx: Context, expr: ast.AST) -> bool:
 
 def has_free_names(expr: ast.AST) -> bool:
     """True when an expression reads some variable (it is not a constant)."""
-    return any(isinstance(n, ast.Name) for n in ast.walk(expr))
+    return any(isinstance(n, ast.Name) for n in walk(expr))
 
 
 # --- shared by the statistics and linear-algebra rules (naive-variance ... normal-equations) ---

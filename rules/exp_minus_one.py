@@ -55,6 +55,9 @@ class ExpMinusOne(Rule):
         Example("import math\ndef f(x):\n    return math.expm1(x)\n", False),
         Example("import math\nK = math.exp(2.0) - 1.0\n", False, note="constant argument: nothing to cancel"),
         Example("import math\ndef f(x):\n    return math.exp(x) - math.exp(-x)\n", False, note="a different rule's pattern"),
+        Example("import mpmath as mp\ndef coeffs():\n    with mp.workdps(30):\n"
+                "        return mp.taylor(lambda x: mp.exp(x) - 1, 0, 10)\n", False,
+                note="field trial regression: arbitrary precision (docs/field-trial.md)"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -67,8 +70,8 @@ class ExpMinusOne(Rule):
             found, negate = exp_argument(ctx, node.right), True
         else:
             return
-        if found is None:
-            return
+        if found is None or p.in_raised_precision(ctx, node):
+            return  # inside mp.workdps(...) the precision is the caller's choice, not double's
         arg, call = found
         rewrite, imports = expm1_text(ctx, call, arg, negate)
         fix = rewrite or "an expm1 function"

@@ -29,6 +29,24 @@ def inverted(ctx: Context, expr: ast.expr) -> tuple[str, ast.Call] | None:
     return None
 
 
+_REPEATS = (ast.For, ast.While, ast.GeneratorExp, ast.ListComp, ast.SetComp, ast.DictComp)
+
+
+def _variables(ctx: Context, expr: ast.expr) -> set[str]:
+    """Names an expression reads, imported modules and functions left out."""
+    return {n for n in p.names_in(expr) if n not in ctx.imports.bindings}
+
+
+def _reused(ctx: Context, product: ast.AST, call: ast.Call) -> bool:
+    """True when the product sits in a loop or comprehension that the inverse's call is outside of."""
+    for anc in ctx.ancestors(product):
+        if isinstance(anc, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
+            return False
+        if isinstance(anc, _REPEATS) and not any(n is call for n in ast.walk(anc)):
+            return True
+    return False
+
+
 def used_elsewhere(ctx: Context, name: ast.expr, product: ast.AST) -> bool:
     """True when the local holding the inverse is also read outside matrix products (e.g. returned)."""
     if not isinstance(name, ast.Name):
@@ -82,6 +100,12 @@ class ExplicitInverse(Rule):
         Example("import numpy as np\ndef covariance(H):\n    cov = np.linalg.inv(H)\n    return cov\n", False,
                 note="the inverse is the result"),
         Example("import numpy as np\ndef f(A, b):\n    return A @ b\n", False),
+        # field trial regressions (docs/field-trial.md)
+        Example("from scipy.linalg import inv\nimport numpy as np\ndef check(y):\n    y_inv = inv(y, assume_a='upper triangular')\n"
+                "    return y_inv @ np.triu(y)\n", False, note="an inverse tested against its own matrix"),
+        Example("import numpy as np\ndef scatter(c, x):\n    c_inv = np.linalg.pinv(c)\n"
+                "    return sum(np.outer(xi, xi) / np.inner(xi, c_inv.dot(xi)) for xi in x)\n", False,
+                note="one pseudo-inverse applied to every item"),
         Example("import numpy as np\ndef residual(a):\n    a_inv = np.linalg.inv(a)\n    return a @ a_inv - np.eye(len(a))\n",
                 False, note="checking an inverse"),
     )
@@ -100,6 +124,10 @@ class ExplicitInverse(Rule):
             rhs = factors[1 - index]
             if p.same_expr(rhs, call.args[0]) or p.same_expr(ctx.origin(rhs), ctx.origin(call.args[0])):
                 return  # A @ inv(A): checking the inverse itself, nothing to solve
+            if _variables(ctx, rhs) and _variables(ctx, rhs) == _variables(ctx, call.args[0]):
+                return  # inv(A) @ triu(A): a test of the inverse against its own matrix
+            if kind == "pinv" and _reused(ctx, node, call):
+                return  # pinv(A) applied to every item of a loop: computed once, used many times
             rewrite, imports = solve_text(ctx, kind, call, rhs, left=index == 0)
             yield self._hit(ctx, node, kind, factors[index], rewrite, imports)
             return

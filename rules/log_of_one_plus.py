@@ -27,9 +27,22 @@ def one_plus(ctx: Context, expr: ast.expr) -> tuple[ast.expr, bool] | None:
         other, negated = expr.left, False
     else:
         return None
-    if not p.has_free_names(other) or p.is_integer_valued(ctx, other):
+    if not p.has_free_names(other) or p.is_integer_valued(ctx, other) or counts(ctx, other):
         return None
     return other, negated
+
+
+def counts(ctx: Context, expr: ast.expr) -> bool:
+    """Integer arrays: `np.arange(n)` of integers, `np.histogram(...)[0]`, `np.bincount(...)`."""
+    expr = ctx.origin(expr)
+    if isinstance(expr, ast.Subscript) and p.is_number(expr.slice, 0) and ctx.family(ctx.origin(expr.value)) == "histogram":
+        return True
+    if not isinstance(expr, ast.Call):
+        return False
+    family = ctx.family(expr)
+    if family == "arange":
+        return bool(expr.args) and all(p.is_integer_valued(ctx, a) for a in expr.args)
+    return family in ("bincount", "count_nonzero")
 
 
 class LogOfOnePlus(Rule):
@@ -50,11 +63,17 @@ class LogOfOnePlus(Rule):
         Example("import math\ndef f(x):\n    return math.log1p(x)\n", False),
         Example("import math\ndef f(xs):\n    return math.log(1 + len(xs))\n", False, note="integer count"),
         Example("import math\ndef f(x):\n    return math.log(2 + x)\n", False),
+        # field trial regressions (docs/field-trial.md): integer arrays, arbitrary precision
+        Example("import numpy as np\ndef weights(m):\n    return 1 + np.log(1 + np.arange(m.shape[1]))\n", False),
+        Example("import numpy as np\ndef start(z, bins):\n    counts = np.histogram(z, bins)[0]\n"
+                "    return np.log(1 + counts)\n", False, note="histogram counts are integers"),
+        Example("import mpmath as mp\ndef coeffs():\n    with mp.workdps(30):\n"
+                "        return mp.taylor(lambda x: mp.log(1 + x), 0, 10)\n", False, note="arbitrary precision"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
         assert isinstance(node, ast.Call)
-        if ctx.family(node) != "log":
+        if ctx.family(node) != "log" or p.in_raised_precision(ctx, node):
             return
         arg = p.single_arg(node)
         found = one_plus(ctx, arg) if arg is not None else None

@@ -163,12 +163,33 @@ def moments_loop(loop: ast.For, accs: list[Accumulation]) -> bool:
     return any(p.is_square(a.term) is not None and ast.dump(p.is_square(a.term)) in terms for a in accs)  # type: ignore[arg-type]
 
 
+def scaled_reduction(ctx: Context, term: ast.expr) -> bool:
+    """`part.sum() / n`, `len(g) * xp.sum(d)`: a per-pass partial sum, scaled; the loop runs over groups."""
+    while isinstance(term, ast.BinOp) and isinstance(term.op, (ast.Mult, ast.Div)):
+        if any(p.reduction(ctx, side) is not None or _namespace_sum(side) for side in (term.left, term.right)):
+            return True
+        term = term.left
+    return _namespace_sum(term)
+
+
+def _namespace_sum(node: ast.AST) -> bool:
+    """`xp.sum(a)` through an array-namespace variable the import table cannot resolve."""
+    return isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute) and node.func.attr in ("sum", "mean") \
+        and isinstance(node.func.value, ast.Name) and bool(node.args)
+
+
 def wanted(ctx: Context, loop: ast.For, acc: Accumulation) -> bool:
     if ctx.enclosing_loops(acc.stmt)[:1] != [loop]:
         return False  # reported on the loop that performs the addition
+    if acc.target in p.names_in(acc.term):
+        return False  # `x = x - f(x) / df(x)`: an iteration (Newton), not a running sum
     init = initial_value(ctx, loop, acc.target)
     if isinstance(init, (ast.List, ast.Tuple, ast.Dict, ast.Set, ast.JoinedStr)) or \
             isinstance(init, ast.Constant) and isinstance(init.value, (str, bytes)):
+        return False
+    if ctx.family(init) in ("zeros", "zeros_like", "ones", "empty", "full") if isinstance(init, ast.Call) else False:
+        return False  # an array of sums over a loop: compensating each element is not the cheap fix assumed here
+    if scaled_reduction(ctx, acc.term):
         return False
     floaty = isinstance(init, ast.Constant) and isinstance(init.value, float) or float_evident(ctx, acc.term)
     if not floaty or p.is_integer_valued(ctx, acc.term) or p.reduction(ctx, acc.term) is not None \
@@ -217,6 +238,16 @@ class NaiveAccumulation(Rule):
         Example("import math\ndef total(values):\n    return math.fsum(values)\n", False),
         Example("def kahan(xs):\n    s = c = 0.0\n    for v in xs:\n        y = v - c\n        t = s + y\n"
                 "        c = (t - s) - y\n        s = t\n    return s\n", False, note="compensated"),
+        # field trial regressions (docs/field-trial.md): Newton iteration, sums over groups, array accumulators
+        Example("def root(f, df, maxit):\n    x = 0.5\n    for i in range(maxit):\n        x = x - f(x) / df(x)\n"
+                "    return x\n", False,
+                note="an iteration reads its own value"),
+        Example("def between(groups, n):\n    total = 0.0\n    for g in groups:\n        total += g.sum() / n\n"
+                "    return total\n", False, note="one scaled partial sum per group"),
+        Example("def spread(xp, clusters, mean):\n    d = 0.0\n    for c in clusters:\n"
+                "        d += c.shape[0] * xp.sum((c - mean) ** 2)\n    return d\n", False),
+        Example("import numpy as np\ndef spread(models, x, n):\n    z = np.zeros(n)\n    for m in models:\n"
+                "        z += (m(x) - x) ** 2\n    return z\n", False, note="array accumulator"),
         Example("def exp_series(x):\n    s, t = 0.0, 1.0\n    for k in range(1, 200):\n        s += t\n        t *= x / k\n"
                 "    return s\n", False, note="a series: the series rules decide"),
     )

@@ -158,6 +158,8 @@ class StepAccumulation(Rule):
         Example("def f(n, dt):\n    out = []\n    for i in range(n):\n        out.append(i * dt)\n    return out\n", False),
         Example("def f(n):\n    t = 0.0\n    for i in range(n):\n        t += 0.5\n        print(t)\n", False,
                 note="0.5 is exact in binary"),
+        Example("def probe(run, losses):\n    for beta in losses:\n        run(beta)\n        beta -= 1.0e-5\n"
+                "        run(beta)\n", False, note="field trial regression: the loop variable is rebound each pass"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -168,6 +170,11 @@ class StepAccumulation(Rule):
         target, step, subtract = found
         if not isinstance(target, (ast.Name, ast.Attribute)) or p.names_in(step) & changing_names(loops[0]):
             return
+        if isinstance(target, ast.Name) and any(
+            isinstance(loop, ast.For) and any(isinstance(n, ast.Name) and n.id == target.id for n in ast.walk(loop.target))
+            for loop in loops
+        ):
+            return  # `for x in xs: x -= h`: the loop rebinds x every pass, nothing accumulates
         if not drifting_step(ctx, target, step) or not read_elsewhere(ctx, node, target):
             return
         loop = loops[0]

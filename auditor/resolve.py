@@ -4,6 +4,7 @@ from __future__ import annotations
 import ast
 from dataclasses import dataclass, field
 
+from auditor.nodes import children
 from auditor.names import FAMILIES, NUMERIC_MODULES, SYNONYMS, family_of
 
 
@@ -70,7 +71,7 @@ def collect_imports(tree: ast.Module) -> ImportTable:
     stack: list[ast.AST] = [tree]
     while stack:
         node = stack.pop()
-        for child in ast.iter_child_nodes(node):
+        for child in children(node):
             if isinstance(child, (ast.Import, ast.ImportFrom)):
                 table.add(child)
             elif isinstance(child, ast.stmt):

@@ -69,6 +69,7 @@ class Context:
         self._flows: dict[int, ScopeFlow] = {}
         self._memo: dict[tuple[str, int], Any] = {}
         self._qualnames: dict[int, tuple[ast.AST, str | None]] = {}
+        self._families: dict[int, tuple[ast.AST, str | None]] = {}
         self._line_starts: list[int] | None = None
         self._ascii = True
 
@@ -147,12 +148,15 @@ class Context:
         return names[key][1]
 
     def family(self, node: ast.AST) -> str | None:
-        """Canonical numeric family of a call (or callee): `np.exp(x)` -> 'exp'."""
-        if isinstance(node, ast.Call):
-            node = node.func
-        if not isinstance(node, (ast.Name, ast.Attribute)):
-            return None
-        return family_of(self.qualname(node))
+        """Canonical numeric family of a call (or callee): `np.exp(x)` -> 'exp' (memoised per node)."""
+        key = id(node)
+        known = self._families.get(key)
+        if known is not None:
+            return known[1]
+        callee = node.func if isinstance(node, ast.Call) else node
+        result = family_of(self.qualname(callee)) if isinstance(callee, (ast.Name, ast.Attribute)) else None
+        self._families[key] = (node, result)  # keep node alive so its id stays unique
+        return result
 
     def is_call(self, node: ast.AST, *families: str) -> bool:
         """True when `node` calls a numeric function of one of `families`."""

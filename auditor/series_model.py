@@ -92,6 +92,7 @@ class Machine:
     def __init__(self, ctx: Context, env: dict[str, object], arrays: dict[str, range] | None = None) -> None:
         self.ctx, self.env, self.steps = ctx, env, 0
         self.arrays = arrays or {}
+        self.array_mode = False  #: evaluate element-wise: `np.arange(...)` yields its element at `position`
         self.position = 0
 
     def value(self, node: ast.AST) -> object:
@@ -126,7 +127,7 @@ class Machine:
             return self.arrays[node.id][self.position]
         if node.id in self.env:
             return self.env[node.id]
-        if self.arrays and hasattr(node, "lineno"):
+        if self.array_mode and hasattr(node, "lineno"):
             origin = self.ctx.origin(node)
             if origin is not node:
                 return self.value(origin)
@@ -144,6 +145,8 @@ class Machine:
 
     def _call(self, node: ast.Call) -> object:
         fam = self.ctx.family(node)
+        if fam == "arange" and self.array_mode:
+            return self.range_of(node)[self.position]
         if fam is None and isinstance(node.func, ast.Name):
             fam = node.func.id
         fn = _FUNCS.get(fam or "")

@@ -155,13 +155,16 @@ def recognise_generator(ctx: Context, call: ast.Call, gen: ast.GeneratorExp | as
     return _runner(ctx, anchor, body) if anchor is not None else None
 
 
-def recognise_array(ctx: Context, call: ast.AST, term: ast.expr, aranges: dict[str, ast.Call]) -> Recognised | None:
-    """`np.sum(term)` over index arrays `k = np.arange(...)`: which known function, if any."""
+def recognise_array(
+    ctx: Context, call: ast.AST, term: ast.expr, aranges: dict[str, ast.Call], inline: list[ast.Call]
+) -> Recognised | None:
+    """`np.sum(term)` over index arrays (`k = np.arange(...)` or inline): which known function, if any."""
     anchor = _statement_of(ctx, call)
 
     def body(m: Machine) -> object:
         m.arrays = {name: m.range_of(c) for name, c in aranges.items()}
-        sizes = {len(r) for r in m.arrays.values()}
+        m.array_mode = True
+        sizes = {len(r) for r in m.arrays.values()} | {len(m.range_of(c)) for c in inline}
         if len(sizes) != 1:
             raise Unknown("array sizes")
         total: object = 0
@@ -170,7 +173,7 @@ def recognise_array(ctx: Context, call: ast.AST, term: ast.expr, aranges: dict[s
             total = total + m.value(term)  # type: ignore[operator]
         return total
 
-    return _runner(ctx, anchor, body) if anchor is not None and aranges else None
+    return _runner(ctx, anchor, body) if anchor is not None and (aranges or inline) else None
 
 
 def _statement_of(ctx: Context, node: ast.AST) -> ast.stmt | None:

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import ast
+from collections.abc import Callable
 
 from auditor import patterns as p
 from auditor.model import Severity
@@ -106,6 +107,26 @@ def _array_term(ctx: Context, term: ast.expr) -> tuple[ast.expr, set[str], set[s
         if ctx.is_call(origin, "arange"):
             idx.add(n.id)
     return term, idx, set()
+
+
+def vector_resolver(ctx: Context, expr: ast.AST) -> Callable[[str], ast.expr | None]:
+    """Resolve the locals an array expression reads to the values they were given."""
+    values: dict[str, ast.expr] = {}
+    for n in _names_through(ctx, expr, 3):
+        origin = ctx.origin(n)
+        if origin is not n:
+            values.setdefault(n.id, origin)
+    return values.get
+
+
+def expressions_through(ctx: Context, expr: ast.AST, depth: int = 3) -> list[ast.AST]:
+    """Every node of `expr` and of the values of the locals it reads (a few levels deep)."""
+    out = list(ast.walk(expr))
+    for n in _names_through(ctx, expr, depth):
+        origin = ctx.origin(n)
+        if origin is not n:
+            out.extend(ast.walk(origin))
+    return out
 
 
 def _names_through(ctx: Context, expr: ast.AST, depth: int) -> list[ast.Name]:

@@ -116,7 +116,8 @@ class AlternatingSeries(Rule):
         if found is None:
             return
         term, idx, ints = found
-        if vector_alternates(ctx, term, idx) and s.factorial_weight(ctx, term, idx) <= 0:
+        weight = s.factorial_weight(ctx, term, idx, s.vector_resolver(ctx, term))
+        if vector_alternates(ctx, term, idx) and weight <= 0:
             if s.is_integer_term(ctx, term, ints):
                 return
             known = _recognise_vector(ctx, node, idx)
@@ -128,7 +129,7 @@ class AlternatingSeries(Rule):
                     rewrite, imports = call
                     fix = f"use `{rewrite}`"
             severity = Severity.NOTE if known is not None and known.kind in ("atan", "log1p") else None
-            if known is None and s.factorial_weight(ctx, term, idx) == 0:
+            if known is None and weight == 0:
                 severity = Severity.NOTE
             yield Hit(node, _message(known, "an explicit sign factor", fix), severity, rewrite, imports)
         elif isinstance(node, ast.Call) and s.positive_sum_call(ctx, node):
@@ -156,7 +157,8 @@ def _recognise_vector(ctx: Context, node: ast.AST, idx: set[str]) -> s.Recognise
         origin = _arange_of(ctx, node, name)
         if origin is not None:
             aranges[name] = origin
-    return s.recognise_array(ctx, node, found[0], aranges)
+    inline = [c for c in s.expressions_through(ctx, found[0]) if isinstance(c, ast.Call) and ctx.family(c) == "arange"]
+    return s.recognise_array(ctx, node, found[0], aranges, inline)
 
 
 def _arange_of(ctx: Context, node: ast.AST, name: str) -> ast.Call | None:

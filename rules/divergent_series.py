@@ -142,7 +142,7 @@ class DivergentSeries(Rule):
         if found is None:
             return
         term, idx, _ = found
-        if idx and s.factorial_weight(ctx, term, idx) > 0:
+        if idx and s.factorial_weight(ctx, term, idx, s.vector_resolver(ctx, term)) > 0:
             yield Hit(node, "divergent series (factorial over a power): every term is summed whatever the argument, "
                       "so past the smallest term the error grows factorially; sum in a loop that stops at the "
                       "smallest term, or use a convergent method")

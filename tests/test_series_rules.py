@@ -124,6 +124,14 @@ def test_no_rewrite_when_the_loop_state_is_used_afterwards():
     assert hit.rewrite is None and "math.exp(-x)" in hit.message
 
 
+def test_inline_sign_array_is_recognised():
+    code = ("import numpy as np\nfrom scipy.special import factorial\ndef f(x, n=40):\n"
+            "    signs = (-1.0) ** np.arange(n)\n    terms = x ** np.arange(n) / factorial(np.arange(n))\n"
+            "    return np.dot(signs, terms)\n")
+    (hit,) = findings(code, ALT)
+    assert hit.rewrite is not None and hit.rewrite.text == "np.exp(-x)"
+
+
 def test_severity_note_for_log_series():
     code = "def f(x):\n    return sum((-1)**(k+1) * x**k / k for k in range(1, 50))\n"
     (hit,) = findings(code, ALT)

@@ -69,6 +69,13 @@ class AlternatingSeries(Rule):
             rewrite="s = math.sin(x)",
         ),
         Example(
+            "import math\ndef mirror_angle(r):\n    s = 0.0\n    for k in range(400):\n"
+            "        s += (-1) ** k * r ** (2 * k + 1) / (2 * k + 1)\n    return s\n",
+            True,
+            rewrite="s = math.atan(r)",
+            note="atan series: a note, it converges only for |r| <= 1",
+        ),
+        Example(
             "def exp_pos(x, n=60):\n    s = 0.0\n    t = 1.0\n    for k in range(1, n):\n"
             "        s += t\n        t *= x / k\n    return 1.0 / s\n",
             False,

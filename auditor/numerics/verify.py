@@ -18,7 +18,9 @@ WITHIN_CONDITION = 1.0
 #: in the LU and Householder QR error bounds: Higham, Accuracy and Stability of Numerical
 #: Algorithms, chapters 9 and 19, from memory); log10 of the 10 rows sampled at most.
 MATRIX_ALLOWANCE = 1.0
-#: No sample may get worse than this many digits.
+#: No sample may get worse than this many digits. With matrix inputs, samples where the rewrite
+#: stays under the reporting threshold do not count: at kappa(A) near 1 a QR or SVD solve loses
+#: a digit more than the normal equations, a difference of rounding constants, not of stability.
 WORSE_ALLOWED = 0.5
 #: Samples on which a rewrite's own reference is computed to check it is the same function.
 SAME_FUNCTION_CHECKS = 16
@@ -42,7 +44,8 @@ def verify_rewrite(before: Sequence[Sample], after: Sequence[Sample]) -> tuple[b
     excess = max((a.digits_lost or 0.0) - mx.explained(b.condition_log10) - (MATRIX_ALLOWANCE if b.whole is not None else 0.0)
                  for b, a in pairs)
     # Compared as relative errors, so a float32 original and a float64 rewrite compare fairly.
-    worse = max(((a.digits_lost or 0.0) - a.digits) - ((b.digits_lost or 0.0) - b.digits) for b, a in pairs)
+    worse = max((((a.digits_lost or 0.0) - a.digits) - ((b.digits_lost or 0.0) - b.digits) for b, a in pairs
+                 if b.whole is None or (a.digits_lost or 0.0) >= mx.BENIGN_BELOW), default=0.0)
     if excess > WITHIN_CONDITION:
         return False, f"the rewrite still loses {excess:.1f} digits more than the condition number explains"
     if worse > WORSE_ALLOWED:

@@ -33,8 +33,18 @@ _REPEATS = (ast.For, ast.While, ast.GeneratorExp, ast.ListComp, ast.SetComp, ast
 
 
 def _variables(ctx: Context, expr: ast.expr) -> set[str]:
-    """Names an expression reads, imported modules and functions left out."""
-    return {n for n in p.names_in(expr) if n not in ctx.imports.bindings}
+    """Variables an expression reads, attribute chains whole (`cls.x`), imported names left out."""
+    found: set[str] = set()
+    stack: list[ast.AST] = [expr]
+    while stack:
+        node = stack.pop()
+        if isinstance(node, (ast.Name, ast.Attribute)) and isinstance(node.ctx, ast.Load):
+            text = ast.unparse(node)
+            if text.split(".")[0] not in ctx.imports.bindings:
+                found.add(text)
+                continue
+        stack.extend(ast.iter_child_nodes(node))
+    return found
 
 
 def _reused(ctx: Context, product: ast.AST, call: ast.Call) -> bool:
@@ -103,6 +113,8 @@ class ExplicitInverse(Rule):
         # field trial regressions (docs/field-trial.md)
         Example("from scipy.linalg import inv\nimport numpy as np\ndef check(y):\n    y_inv = inv(y, assume_a='upper triangular')\n"
                 "    return y_inv @ np.triu(y)\n", False, note="an inverse tested against its own matrix"),
+        Example("import numpy as np\nclass T:\n    def setup(cls):\n        return np.dot(np.linalg.pinv(cls.x), cls.y)\n",
+                True, note="attributes of one object are different matrices"),
         Example("import numpy as np\ndef scatter(c, x):\n    c_inv = np.linalg.pinv(c)\n"
                 "    return sum(np.outer(xi, xi) / np.inner(xi, c_inv.dot(xi)) for xi in x)\n", False,
                 note="one pseudo-inverse applied to every item"),

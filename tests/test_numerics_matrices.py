@@ -45,7 +45,7 @@ def test_solve_with_the_hilbert_matrix_against_mpmath_lu_solve():
         exact = mpmath.lu_solve(mpmath.matrix([list(r) for r in HILBERT5]), mpmath.matrix(list(b)))
         assert all(abs(r - e) < mpmath.mpf(10) ** -25 * abs(e) for r, e in zip(sample.whole, exact))
     x = np.linalg.solve(np.array(HILBERT5), np.array(b))  # numpy's own answer is the float run's
-    assert sample.float_value == x[sample.index]
+    assert sample.float_value == x[sample.component]
     assert sample.digits_lost == pytest.approx(_normwise_loss(x, list(exact)), abs=0.02)
     assert "norm-wise" in note and "kappa(A)" in note
 
@@ -108,8 +108,8 @@ def test_explicit_inverse_and_solve_both_track_the_condition_number():
     assert got.verified and got.after is not None
     for before, after in zip(got.samples, got.after_samples):  # the float runs are numpy's own results
         a, b = np.array(before.inputs["G"]), np.array(before.inputs["p"])
-        assert before.float_value == (np.linalg.inv(a) @ b)[before.index]
-        assert after.float_value == np.linalg.solve(a, b)[after.index]
+        assert before.float_value == (np.linalg.inv(a) @ b)[before.component]
+        assert after.float_value == np.linalg.solve(a, b)[after.component]
     assert got.after.condition_log10_max == m.condition_log10_max  # kappa(G) of the same matrices
 
 

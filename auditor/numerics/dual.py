@@ -151,7 +151,7 @@ class DualCompiler(BatchCompiler):
 
         def run(columns: dict[str, list[Any]], n: int) -> Dual:
             u, gu = base(columns, n)
-            p = exponent(columns, n)[0] if n else 0
+            p: Any = exponent(columns, n)[0] if n else 0
             y = [a ** p for a in u] if small else [checked_pow(a, p) for a in u]  # as the column run
             factor = [p * yy / uu if p != 0 else 0 for yy, uu in zip(y, u)]  # d u^p = p u^p / u du
             return y, _scale(gu, factor)

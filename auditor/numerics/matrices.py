@@ -81,7 +81,10 @@ def _linear_algebra(root: ast.AST) -> bool:
 def matrix_roles(roots: Sequence[ast.AST | None], names: Sequence[str]) -> Roles:
     """Matrices, tall matrices and vectors among `names`, from the unit's linear algebra."""
     wanted = set(names)
-    square, tall, vectors, consistent = set(), set(), set(), {}
+    square: set[str | None] = set()
+    tall: set[str | None] = set()
+    vectors: set[str | None] = set()
+    consistent: dict[str | None, str | None] = {}
     if not any(_linear_algebra(r) for r in roots if r is not None):
         return Roles(frozenset(), frozenset(), frozenset(), {})  # np.dot alone may be a dot product of vectors
     for root in (r for r in roots if r is not None):
@@ -102,25 +105,27 @@ def matrix_roles(roots: Sequence[ast.AST | None], names: Sequence[str]) -> Roles
                 consistent.setdefault(_name(right), base)
             square.add(_name(left))
             vectors.add(_name(right))
-    tall &= wanted
-    square = (square & wanted) - tall
-    vectors = (vectors & wanted) - square - tall
-    consistent = {v: a for v, a in consistent.items() if v in vectors and a in tall}
-    if len(tall) == 1 and not square:  # one least-squares problem: its right-hand sides
-        consistent = {v: next(iter(tall)) for v in vectors}
-    return Roles(frozenset(square), frozenset(tall), frozenset(vectors), consistent)
+    tall_ = {n for n in tall if n in wanted}
+    square_ = {n for n in square if n in wanted} - tall_
+    vectors_ = {n for n in vectors if n in wanted} - square_ - tall_
+    pairs = {v: a for v, a in consistent.items() if v in vectors_ and a in tall_ and v and a}
+    if len(tall_) == 1 and not square_:  # one least-squares problem: its right-hand sides
+        pairs = {v: next(iter(tall_)) for v in vectors_}
+    return Roles(frozenset(square_), frozenset(tall_), frozenset(vectors_), pairs)
 
 
 def _orthogonal(rng: np.random.Generator, n: int, k: int) -> np.ndarray:
     """An n x k matrix with orthonormal columns (QR of a Gaussian matrix, signs fixed)."""
     q, r = np.linalg.qr(rng.standard_normal((n, k)))
-    return q * np.sign(np.diag(r))
+    out: np.ndarray = q * np.sign(np.diag(r))
+    return out
 
 
 def conditioned_matrix(rng: np.random.Generator, rows: int, cols: int, cond: float) -> np.ndarray:
     """U diag(s) V^T with s log-spaced from 1 down to 1/cond: 2-norm condition number about cond."""
     s = np.logspace(0.0, -math.log10(cond), cols)
-    return (_orthogonal(rng, rows, cols) * s) @ _orthogonal(rng, cols, cols).T
+    out: np.ndarray = (_orthogonal(rng, rows, cols) * s) @ _orthogonal(rng, cols, cols).T
+    return out
 
 
 def _nested(a: np.ndarray) -> tuple[Any, ...]:

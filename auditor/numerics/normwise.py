@@ -23,7 +23,7 @@ def _number(v: Any) -> Any:
     """A component as an mpmath number (bools as 0/1; floats exactly)."""
     if isinstance(v, (bool, int)):
         return mpmath.mpf(int(v))
-    if isinstance(v, complex) or getattr(v, "imag", 0):
+    if isinstance(v, complex) or getattr(v, "imag", False):
         return mpmath.mpc(complex(v))
     return mpmath.mpf(float(v)) if not isinstance(v, (mpmath.mpf, mpmath.mpc)) else v
 
@@ -73,7 +73,7 @@ def finish_normwise(shadow: Shadow, point: dict[str, Any], fv: list[Any], rv: li
     except (ArithmeticError, ValueError, ZeroDivisionError):
         cond = None
     j = _worst_index(fv, rv)
-    return Sample(point, fv[j], rv[j], loss, cond, bits, digits=digits, index=j, whole=tuple(rv))
+    return Sample(point, fv[j], rv[j], loss, cond, bits, digits=digits, component=j, whole=tuple(rv))
 
 
 def _out_of_range(r: Any) -> bool:

@@ -66,7 +66,7 @@ class Sample(NamedTuple):
     bits: int = 0  #: precision of the reference
     note: str = ""  #: why the sample was excluded, if it was
     digits: float = mx.DIGITS_FLOAT64  #: digits the float result carries (7.22 for float32)
-    index: int = 0  #: which output component (for tuple or array results)
+    component: int = 0  #: which output component (for tuple or array results)
     whole: tuple[Any, ...] | None = None  #: every reference component, for units measured norm-wise
 
 
@@ -222,7 +222,7 @@ def finish_sample(shadow: Shadow, point: dict[str, Any], fv: list[Any], rv: list
         cond = condition(rv[j], j)
     else:
         cond = _condition(shadow, point, rv[j], j, bits)
-    return Sample(point, fv[j], rv[j], loss, cond, bits, digits=mx.digits_of(fv[j]), index=j)
+    return Sample(point, fv[j], rv[j], loss, cond, bits, digits=mx.digits_of(fv[j]), component=j)
 
 
 def _worst_component(fv: list[Any], rv: list[Any]) -> tuple[int, float]:

@@ -71,6 +71,9 @@ def summarize(samples: Sequence[Sample], inputs_reason: str, note: str = "", ser
         parts.append("excluded: " + "; ".join(f"{n} sample(s): {why}" for why, n in excluded.most_common()))
     if any(c is not None and c == math.inf for c in conds):
         parts.append("the condition number is infinite where the exact result is 0")
+    if isinstance(worst.reference, bool):
+        parts.append("a true/false result: no digit is lost where the float test agrees with the exact one, "
+                     "all where it does not")
     if note:
         parts.append(note)
     return Measurement(

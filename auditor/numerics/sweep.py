@@ -122,7 +122,7 @@ def finish_column(shadow: Shadow, points: Sequence[Point], floats: list[Any], re
     out = []
     for i, p in enumerate(points):
         c = conds[i] if conds is not None else None
-        if plain[i]:
+        if plain[i] and losses is not None:
             cond = (c(refs[i], 0) if callable(c) else c) if shadow.conditions else None
             out.append(Sample(p, floats[i], refs[i], losses[i], cond, bits))
         else:

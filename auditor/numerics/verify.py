@@ -83,9 +83,8 @@ def remeasure(shadow: Shadow, before: Sequence[Sample]) -> list[Sample]:
     bits = max([b.bits for b in before if b.bits] or [START_BITS])  # excluded samples carry no precision
     uses_arrays(shadow, [b.inputs for b in before])
     with quiet(bits):
-        out = _again_column(shadow, before, check)
-        if out is None:
-            out = [_again(shadow, b, i in check) for i, b in enumerate(before)]
+        column = _again_column(shadow, before, check)
+        out = column if column is not None else [_again(shadow, b, i in check) for i, b in enumerate(before)]
         worst = sorted(range(len(out)), key=lambda i: -(out[i].digits_lost or 0.0))[:2]
         for i in worst:
             if i not in check and out[i].digits_lost is not None:
@@ -105,25 +104,25 @@ def _again(shadow: Shadow, b: Sample, own_reference: bool, against_own: bool = F
         reference = b.reference
         if own_reference:
             rv = flatten(run_ref(shadow, b.inputs, b.bits))
-            reference = rv[b.index] if b.index < len(rv) else None
+            reference = rv[b.component] if b.component < len(rv) else None
     except FATAL:
         raise
     except Exception as exc:
         return Sample(b.inputs, note=f"rewrite raised {type(exc).__name__}")
     if b.whole is not None:
         return _again_whole(b, fv, rv if own_reference else None, against_own)
-    if b.index >= len(fv) or reference is None:
+    if b.component >= len(fv) or reference is None:
         return Sample(b.inputs, note="the rewrite returns fewer values")
-    f = fv[b.index]
+    f = fv[b.component]
     loss = mx.digits_lost(f, reference if against_own else b.reference, mx.digits_of(f))
-    return Sample(b.inputs, f, reference, loss, b.condition_log10, b.bits, digits=mx.digits_of(f), index=b.index)
+    return Sample(b.inputs, f, reference, loss, b.condition_log10, b.bits, digits=mx.digits_of(f), component=b.component)
 
 
 def _again_column(shadow: Shadow, before: Sequence[Sample], check: set[int]) -> list[Sample] | None:
     """`_again` for all samples with the rewrite's float run done column-wise (numerics/sweep.py);
     None when the rewrite has no column form or the column is not plain floats against MPFR."""
     measured = [b for b in before if b.digits_lost is not None]
-    if not measured or any(b.index != 0 for b in measured):
+    if not measured or any(b.component != 0 for b in measured):
         return None
     floats = float_column(shadow, [b.inputs for b in measured])
     losses = column_losses(floats, [b.reference for b in measured]) if floats is not None else None
@@ -145,4 +144,4 @@ def _again_whole(b: Sample, fv: list[Any], own: list[Any] | None, against_own: b
     if len(fv) != len(whole):
         return Sample(b.inputs, note="the rewrite returns a different number of values")
     loss, j = again_normwise(fv, whole if against_own else b.whole or whole)
-    return Sample(b.inputs, fv[j], whole[j], loss, b.condition_log10, b.bits, digits=mx.digits_of(fv[j]), index=j, whole=whole)
+    return Sample(b.inputs, fv[j], whole[j], loss, b.condition_log10, b.bits, digits=mx.digits_of(fv[j]), component=j, whole=whole)

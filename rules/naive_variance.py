@@ -18,6 +18,8 @@ from auditor import patterns as p
 
 #: (kind, factors): kind "mean" or "sum"; factors are (key, node) of the averaged data, 1 or 2 of them
 Moment = tuple[str, tuple[tuple[str, ast.expr], ...]]
+#: Welford's streaming update, quoted in the advice where only running sums exist (Welford 1962)
+WELFORD = "k += 1; d = x - mean; mean += d / k; m2 += d * (x - mean); variance = m2 / k, or m2 / (k - 1) for the sample variance"
 
 
 def data_key(ctx: Context, expr: ast.expr) -> tuple[str, ast.expr]:
@@ -149,8 +151,32 @@ def two_pass_text(ctx: Context, left: ast.expr, m: Moment) -> tuple[str | None, 
     return f"{mean}(({xs} - {mean}({xs})) * ({ys} - {mean}({ys})))", imports
 
 
+def summing_loop(ctx: Context, name: ast.Name) -> ast.For | None:
+    """The `for` loop whose every pass adds to the running sum `name` (a statement of its body, no break)."""
+    adds = [b for b in ctx.flow(ctx.scope(name)).of(name.id) if b.kind in ("aug", "assign") and b.value is not None
+            and not p.is_number(b.value, 0)]
+    if len(adds) != 1:
+        return None
+    loop = ctx.parent(adds[0].stmt)
+    if not isinstance(loop, ast.For) or adds[0].stmt not in loop.body or loop.orelse:
+        return None
+    return None if any(isinstance(n, ast.Break) for n in ast.walk(loop)) else loop
+
+
+def passes_over(ctx: Context, node: ast.AST, data: ast.expr) -> bool:
+    """Every loop-accumulated sum `node` reads is taken over all of `data`, one item per pass."""
+    for name in (n for n in ast.walk(node) if isinstance(n, ast.Name)):
+        if accumulated(ctx, name) is not None:
+            loop = summing_loop(ctx, name)
+            if loop is None or not p.same_expr(loop.iter, data):
+                return False
+    return True
+
+
 def counts(ctx: Context, n: ast.expr, data: ast.expr) -> bool:
-    """True when `n` (or its local) is len(data), data.size or data.shape[0]."""
+    """True when `n` (or its local) is len(data), data.size, data.shape[0] or a counter of a loop over data."""
+    if isinstance(n, ast.Name) and accumulated(ctx, n) is not None:
+        return p.is_one(accumulated(ctx, n)) and passes_over(ctx, n, data)  # type: ignore[arg-type]
     n = ctx.origin(n)
     if isinstance(n, ast.Call) and isinstance(n.func, ast.Name) and n.func.id == "len" and p.single_arg(n) is not None:
         return p.same_expr(n.args[0], data)
@@ -160,18 +186,88 @@ def counts(ctx: Context, n: ast.expr, data: ast.expr) -> bool:
         and p.is_number(n.slice, 0) and p.same_expr(n.value.value, data)
 
 
-def scaled_variance_text(ctx: Context, node: ast.BinOp, m: Moment) -> tuple[str | None, tuple[str, ...]]:
-    """`n * var(x)` for sum_sq - sum**2 / n when n is the length of x (the sum of squared deviations)."""
-    (k1, x), (k2, _) = m[1]
-    right = node.right
-    if k1 != k2 or not isinstance(right, ast.BinOp) or not counts(ctx, right.right, x):
-        return None, ()
+def variance_func(ctx: Context, node: ast.AST) -> tuple[str, tuple[str, ...]]:
+    """np.var where the sums are numpy's (or only numpy is imported), else statistics.pvariance;
+    both divide by n (population variance)."""
+    reads = [ctx.origin(n) if isinstance(n, ast.Name) else n for n in ast.walk(node)]
+    numpy_sums = any(p.callee_module(ctx, c) == "numpy" for e in reads for c in ast.walk(e))
+    uses_numpy = ctx.imports.imports_any("numpy") and (numpy_sums or not ctx.imports.imports_any("statistics"))
+    return p.spelled_qualified(ctx, "numpy.var" if uses_numpy else "statistics.pvariance")
+
+
+def whole_data(ctx: Context, node: ast.BinOp, x: ast.expr) -> bool:
+    """The sums cover all of x: x is not a loop variable, and loop-accumulated sums run over x itself."""
+    if any(isinstance(n, ast.Call) for n in ast.walk(x)):
+        return False  # `for v in stream.readings()`: reading the data again may give other data, or none
     binding = ctx.binding(x) if isinstance(x, ast.Name) else None
-    if binding is not None and binding.kind == "loop":
+    return (binding is None or binding.kind != "loop") and passes_over(ctx, node, x)
+
+
+def scaled_variance_text(ctx: Context, node: ast.BinOp, m: Moment) -> tuple[str | None, tuple[str, ...]]:
+    """The sum of squared deviations n * var(x) for sum_sq - sum**2 / n, and n**2 * var(x) for
+    n * sum_sq - sum**2, when n is the length of x (equal in exact arithmetic)."""
+    (k1, x), (k2, _) = m[1]
+    left, right = node.left, node.right
+    if k1 != k2 or not whole_data(ctx, node, x):
         return None, ()
-    uses_numpy = ctx.imports.imports_any("numpy") and not ctx.imports.imports_any("statistics")
-    func, imports = p.spelled_qualified(ctx, "numpy.var" if uses_numpy else "statistics.pvariance")
-    return f"{p.operand_text(ctx, right.right)} * {func}({p.text(ctx, x)})", imports
+    if isinstance(right, ast.BinOp) and isinstance(right.op, ast.Div) and counts(ctx, right.right, x):
+        func, imports = variance_func(ctx, node)
+        return f"{p.operand_text(ctx, right.right)} * {func}({p.text(ctx, x)})", imports
+    if isinstance(left, ast.BinOp) and isinstance(left.op, ast.Mult):
+        n = next((f for f in (left.left, left.right) if counts(ctx, f, x)), None)
+        if n is not None:
+            func, imports = variance_func(ctx, node)
+            return f"{p.operand_text(ctx, n)} ** 2 * {func}({p.text(ctx, x)})", imports
+    return None, ()
+
+
+def divided_variance_text(ctx: Context, node: ast.BinOp, m: Moment) -> tuple[str | None, tuple[str, ...]]:
+    """var(x) for s2 / n - (s / n) ** 2 when n counts x and every division is by that n."""
+    (k1, x), (k2, _) = m[1]
+    left = node.left
+    if k1 != k2 or not isinstance(left, ast.BinOp) or not isinstance(left.op, ast.Div):
+        return None, ()
+    n = left.right
+    right = [ctx.origin(e) if isinstance(e, ast.Name) else e for e in ast.walk(node.right)]
+    divisions = [d for e in right for d in ast.walk(e) if isinstance(d, ast.BinOp) and isinstance(d.op, ast.Div)]
+    if not divisions or not all(p.same_expr(d.right, n) for d in divisions):
+        return None, ()
+    if not counts(ctx, n, x) or not whole_data(ctx, node, x):
+        return None, ()
+    func, imports = variance_func(ctx, node)
+    return f"{func}({p.text(ctx, x)})", imports
+
+
+def covariance_text(ctx: Context, node: ast.BinOp) -> tuple[str | None, tuple[str, ...]]:
+    """`mean([(x - ea) * (y - eb) for x, y in zip(a, b)])` for mean([x * y ...]) - ea * eb, where the
+    locals ea and eb hold the means of a and b (two passes; equal in exact arithmetic)."""
+    call = node.left
+    data = call.args[0] if isinstance(call, ast.Call) and len(call.args) == 1 else None
+    right = node.right
+    if not isinstance(data, (ast.ListComp, ast.GeneratorExp)) or len(data.generators) != 1 \
+            or data.generators[0].ifs or not isinstance(right, ast.BinOp) or not isinstance(right.op, ast.Mult):
+        return None, ()
+    comp, elt = data.generators[0], data.elt
+    if not isinstance(elt, ast.BinOp) or not isinstance(elt.op, ast.Mult) or elt.lineno != elt.end_lineno:
+        return None, ()
+    means = {}
+    for side in (right.left, right.right):
+        found = moment(ctx, side) if isinstance(side, ast.Name) else None
+        if found is None or found[0] != "mean" or len(found[1]) != 1:
+            return None, ()
+        means[found[1][0][0]] = side.id  # type: ignore[attr-defined]
+    parts = []
+    for factor in (elt.left, elt.right):
+        source = comprehension_source(comp, factor)
+        mean = means.get(ast.dump(source)) if source is not None else None
+        if mean is None:
+            return None, ()
+        parts.append(f"({p.text(ctx, factor)} - {mean})")
+    text, base = p.text(ctx, call), call.col_offset
+    if call.lineno != elt.lineno:
+        return None, ()
+    lo, hi = elt.col_offset - base, elt.end_col_offset - base  # type: ignore[operator]
+    return text[:lo] + " * ".join(parts) + text[hi:], ()
 
 
 def matched(ctx: Context, node: ast.BinOp) -> tuple[str, Moment] | None:
@@ -216,7 +312,17 @@ class NaiveVariance(Rule):
         Example("def var(xs):\n    n = len(xs)\n    s = sum(xs)\n    sq = sum(v * v for v in xs)\n"
                 "    return (sq - s**2 / n) / (n - 1)\n", True, "n * statistics.pvariance(xs)"),
         Example("def var(xs):\n    s = 0.0\n    s2 = 0.0\n    for v in xs:\n        s += v\n        s2 += v * v\n"
-                "    n = len(xs)\n    return s2 / n - (s / n) ** 2\n", True),
+                "    n = len(xs)\n    return s2 / n - (s / n) ** 2\n", True, "statistics.pvariance(xs)"),
+        Example("def var(xs):\n    s = s2 = 0.0\n    n = 0\n    for v in xs:\n        s += v\n        s2 += v * v\n"
+                "        n += 1\n    return s2 / n - (s / n) ** 2\n", True, "statistics.pvariance(xs)", note="counted"),
+        Example("import numpy as np\ndef var(xs):\n    n = len(xs)\n    sx = np.sum(xs)\n    sxx = np.sum(xs**2)\n"
+                "    return (n * sxx - sx**2) / (n * (n - 1))\n", True, "n ** 2 * np.var(xs)"),
+        Example("import statistics\ndef cov(a, b):\n    ea = statistics.mean(a)\n    eb = statistics.mean(b)\n"
+                "    return statistics.mean([x * y for x, y in zip(a, b)]) - ea * eb\n", True,
+                "statistics.mean([(x - ea) * (y - eb) for x, y in zip(a, b)])"),
+        Example("def var(stream):\n    s = s2 = 0.0\n    n = 0\n    for v in stream.readings():\n        s += v\n"
+                "        s2 += v * v\n        n += 1\n    return s2 / n - (s / n) ** 2\n", True,
+                note="streaming: Welford's update is advice only, no rewrite"),
         Example("import numpy as np\ndef cov(x, y):\n    return np.mean(x * y) - np.mean(x) * np.mean(y)\n", True,
                 "np.mean((x - np.mean(x)) * (y - np.mean(y)))"),
         Example("import numpy as np\ndef spread(x):\n    m = np.mean(x)\n    return np.mean((x - m) ** 2)\n", False,
@@ -235,7 +341,10 @@ class NaiveVariance(Rule):
         form, m2 = found
         covariance = m2[1][0][0] != m2[1][1][0]
         rewrite, imports = two_pass_text(ctx, node.left, m2) if form == "mean" else scaled_variance_text(ctx, node, m2)
-        fix = rewrite or "a two-pass form (subtract the mean first) or Welford's running update"
+        if rewrite is None and form == "mean":
+            rewrite, imports = divided_variance_text(ctx, node, m2) if not covariance else covariance_text(ctx, node)
+        fix = rewrite or ("a two-pass form (subtract the mean first) where the data is kept, else Welford's "
+                          "update (advice, not verified: " + WELFORD + ")")
         what = "E[xy] - E[x]E[y]" if covariance else "the mean of squares minus the squared mean"
         yield Hit(node, f"{what} cancels, losing about 2*log10(|mean|/spread) digits (8 at mean/spread = 1e4) "
                   f"and possibly going negative; use {fix}", rewrite=rewrite, imports=imports)

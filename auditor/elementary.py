@@ -7,6 +7,7 @@ from dataclasses import dataclass
 from auditor import patterns as p
 from auditor.algebra import Term, mult_factors, signed_terms
 from auditor.rule import Context
+from auditor.nodes import walk
 
 
 @dataclass(frozen=True, slots=True)
@@ -82,7 +83,7 @@ def stable_origin(ctx: Context, value: ast.expr, use: ast.AST) -> bool:
     scope = ctx.scope(use)
     flow = ctx.flow(scope)
     line, col = getattr(use, "lineno", 0), getattr(use, "col_offset", 0)
-    for name in (n for n in ast.walk(value) if isinstance(n, ast.Name)):
+    for name in (n for n in walk(value) if isinstance(n, ast.Name)):
         if ctx.scope(name) is not scope:
             return False
         if flow.reaching(name.id, name.lineno, name.col_offset) is not flow.reaching(name.id, line, col):
@@ -92,12 +93,12 @@ def stable_origin(ctx: Context, value: ast.expr, use: ast.AST) -> bool:
 
 def reads_variables(ctx: Context, expr: ast.AST) -> bool:
     """True when `expr` reads a variable; imported names (`math.pi`, `np`) are constants, not variables."""
-    return any(isinstance(n, ast.Name) and ctx.qualname(n) is None for n in ast.walk(expr))
+    return any(isinstance(n, ast.Name) and ctx.qualname(n) is None for n in walk(expr))
 
 
 def variables(ctx: Context, expr: ast.AST) -> set[str]:
     """The variable names `expr` reads (imported module and function names left out)."""
-    return {n.id for n in ast.walk(expr) if isinstance(n, ast.Name) and ctx.qualname(n) is None}
+    return {n.id for n in walk(expr) if isinstance(n, ast.Name) and ctx.qualname(n) is None}
 
 
 def square_base(ctx: Context, node: ast.AST) -> ast.expr | None:

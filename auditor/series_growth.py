@@ -6,6 +6,7 @@ from collections.abc import Callable
 
 from auditor import patterns as p
 from auditor.rule import Context
+from auditor.nodes import walk
 
 Loop = ast.For | ast.While
 #: maps a local name to the expression it holds inside the loop (or None)
@@ -98,7 +99,7 @@ def factorial_weight(ctx: Context, expr: ast.AST, idx: set[str], resolve: Resolv
 
 def fixed_point(expr: ast.AST) -> bool:
     """Integer or fixed-point arithmetic (`//`, `>>`, `<<`): not floating-point cancellation."""
-    return any(isinstance(n, ast.BinOp) and isinstance(n.op, (ast.FloorDiv, ast.RShift, ast.LShift)) for n in ast.walk(expr))
+    return any(isinstance(n, ast.BinOp) and isinstance(n.op, (ast.FloorDiv, ast.RShift, ast.LShift)) for n in walk(expr))
 
 
 def is_integer_term(ctx: Context, expr: ast.AST, ints: set[str], depth: int = 3) -> bool:
@@ -143,7 +144,7 @@ def _term_family(loop: Loop, names: set[str]) -> set[str]:
         for stmt in assigns:
             if p.names_in(stmt.value) & family:
                 for t in stmt.targets:
-                    for n in ast.walk(t):
+                    for n in walk(t):
                         if isinstance(n, ast.Name) and n.id not in family:
                             family.add(n.id)
                             changed = True
@@ -166,7 +167,7 @@ def smallest_term_stop(loop: Loop, term_names: set[str], idx: set[str], xnames: 
         for t in n.targets if isinstance(t, ast.Name) and p.names_in(n.value) & idx and p.names_in(n.value) & xnames
     }
     for test in _stop_tests(loop):
-        for cmp in (n for n in ast.walk(test) if isinstance(n, ast.Compare)):
+        for cmp in (n for n in walk(test) if isinstance(n, ast.Compare)):
             sides = [cmp.left, *cmp.comparators]
             names = [p.names_in(s) for s in sides]
             if sum(1 for n in names if n & family) >= 2:
@@ -205,7 +206,7 @@ def _guard_bound(ctx: Context, loop: Loop, xnames: set[str]) -> float | None:
 
 
 def _contains(tree: ast.AST, node: ast.AST) -> bool:
-    return any(n is node for n in ast.walk(tree))
+    return any(n is node for n in walk(tree))
 
 
 def _lower_bound(test: ast.AST, xnames: set[str], above: bool) -> float | None:

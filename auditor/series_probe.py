@@ -7,6 +7,7 @@ from collections.abc import Callable
 from auditor import patterns as p
 from auditor.rule import Context
 from auditor.series_model import _TERMS, Machine, Recognised, Unknown, _Break, _Continue, recognise
+from auditor.nodes import walk
 
 _FUNCS = (ast.FunctionDef, ast.AsyncFunctionDef)
 
@@ -32,7 +33,7 @@ def _tests_reading(nodes: list[ast.AST]) -> set[str]:
     """Names read in loop conditions and `if` tests (tolerances, limits)."""
     out: set[str] = set()
     for top in nodes:
-        for n in ast.walk(top):
+        for n in walk(top):
             if isinstance(n, (ast.While, ast.If)):
                 out |= p.names_in(n.test)
     return out
@@ -41,7 +42,7 @@ def _tests_reading(nodes: list[ast.AST]) -> set[str]:
 def _range_reading(nodes: list[ast.AST]) -> set[str]:
     out: set[str] = set()
     for top in nodes:
-        for n in ast.walk(top):
+        for n in walk(top):
             if isinstance(n, ast.Call) and isinstance(n.func, (ast.Name, ast.Attribute)):
                 name = n.func.id if isinstance(n.func, ast.Name) else n.func.attr
                 if name in ("range", "arange"):
@@ -74,7 +75,7 @@ def parameters(func: ast.AST, nodes: list[ast.AST]) -> tuple[dict[str, object], 
 def _read_in_arithmetic(node: ast.AST) -> set[str]:
     """Names read inside arithmetic (not only in comparisons)."""
     out: set[str] = set()
-    for n in ast.walk(node):
+    for n in walk(node):
         if isinstance(n, ast.BinOp):
             out |= p.names_in(n)
     return out
@@ -89,7 +90,7 @@ def _machine(ctx: Context, stmts: list[ast.stmt], env: dict[str, object]) -> Mac
         except (_Break, _Continue):
             raise Unknown("the function leaves before the series") from None
         except (Unknown, ArithmeticError, ValueError, TypeError):
-            for n in ast.walk(stmt):
+            for n in walk(stmt):
                 if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Store):
                     m.env.pop(n.id, None)
     return m
@@ -117,7 +118,7 @@ def _runner(ctx: Context, anchor: ast.AST, body: Callable[[Machine], object]) ->
 
 def _local_arguments(anchor: ast.AST, stmts: list[ast.stmt]) -> list[str]:
     """Locals the series reads but does not change, computed before it from other variables."""
-    stored = {n.id for n in ast.walk(anchor) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Store)}
+    stored = {n.id for n in walk(anchor) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Store)}
     read = p.names_in(anchor) - stored
     out = []
     for stmt in stmts:

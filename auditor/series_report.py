@@ -12,6 +12,7 @@ from auditor.series_model import Recognised
 from auditor.series_rewrite import library_call, module_for, read_after
 from auditor.series_signs import Accumulation, Loop, contains_sign_power, index_names, parity_sign
 from auditor.series_terms import in_loop_resolver, ratio_degree
+from auditor.nodes import walk
 
 #: digits lost, from the size of the largest term against the sum: for e^-x the terms peak near
 #: e^x / sqrt(2 pi x) against e^-x, for sin/cos near e^|x| / sqrt(2 pi |x|) against O(1) (common practice);
@@ -49,7 +50,7 @@ def _has_power_or_reciprocal(expr: ast.expr, idx: set[str], resolve) -> bool:  #
     """A geometric or 1/k magnitude (`x**k`, `1 / (2k + 1)`): the series needs |x| < 1 anyway."""
     return index_degree(expr, idx, resolve) < 0 or any(
         isinstance(n, ast.BinOp) and isinstance(n.op, ast.Pow) and p.names_in(n.right) & idx and not p.is_number(n.left, -1)
-        for n in ast.walk(expr)
+        for n in walk(expr)
     )
 
 
@@ -62,7 +63,7 @@ def loop_rewrite(ctx: Context, loop: Loop, acc: str, known: Recognised | None) -
     if call is None:
         return None, (), generic
     text, imports = call
-    others = {n.id for n in ast.walk(loop) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Store)} - {acc}
+    others = {n.id for n in walk(loop) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Store)} - {acc}
     if loop.orelse or read_after(ctx, loop, others):
         return None, (), f"use `{text}`"
     return f"{acc} = {text}", imports, f"use `{text}`"
@@ -92,7 +93,7 @@ def summed_term(ctx: Context, node: ast.AST) -> tuple[ast.expr, set[str], set[st
 def _generator_term(gen: ast.GeneratorExp | ast.ListComp) -> tuple[ast.expr, set[str], set[str]]:
     idx, ints = set(), set()
     for g in gen.generators:
-        names = {n.id for n in ast.walk(g.target) if isinstance(n, ast.Name)}
+        names = {n.id for n in walk(g.target) if isinstance(n, ast.Name)}
         idx |= names
         if isinstance(g.iter, ast.Call) and isinstance(g.iter.func, ast.Name) and g.iter.func.id == "range":
             ints |= names | {n for a in g.iter.args for n in p.names_in(a)}  # range() takes ints only
@@ -121,17 +122,17 @@ def vector_resolver(ctx: Context, expr: ast.AST) -> Callable[[str], ast.expr | N
 
 def expressions_through(ctx: Context, expr: ast.AST, depth: int = 3) -> list[ast.AST]:
     """Every node of `expr` and of the values of the locals it reads (a few levels deep)."""
-    out = list(ast.walk(expr))
+    out = list(walk(expr))
     for n in _names_through(ctx, expr, depth):
         origin = ctx.origin(n)
         if origin is not n:
-            out.extend(ast.walk(origin))
+            out.extend(walk(origin))
     return out
 
 
 def _names_through(ctx: Context, expr: ast.AST, depth: int) -> list[ast.Name]:
     out = []
-    for n in ast.walk(expr):
+    for n in walk(expr):
         if isinstance(n, ast.Name) and hasattr(n, "lineno"):
             out.append(n)
             origin = ctx.origin(n)
@@ -144,7 +145,7 @@ def vector_alternates(ctx: Context, term: ast.AST, idx: set[str], depth: int = 3
     """A sign power or parity sign in the term, directly or in the locals it reads."""
     if contains_sign_power(ctx, term) or parity_sign(ctx, None, term, idx or p.names_in(term)):
         return True
-    for n in ast.walk(term):
+    for n in walk(term):
         if isinstance(n, ast.Name) and hasattr(n, "lineno") and depth > 0:
             origin = ctx.origin(n)
             if origin is not n and vector_alternates(ctx, origin, idx, depth - 1):

@@ -5,6 +5,7 @@ import ast
 
 from auditor import patterns as p
 from auditor.rule import Context
+from auditor.nodes import walk
 
 #: known series -> (function name per module, argument template)
 LIBRARY: dict[str, tuple[str, str]] = {
@@ -35,8 +36,8 @@ DESCRIBED: dict[str, str] = {
 def module_for(ctx: Context, node: ast.AST) -> str:
     """The library the file computes with: cmath when the code is complex, else math, else numpy."""
     scope = ctx.scope(node)
-    complex_literal = any(isinstance(n, ast.Constant) and isinstance(n.value, complex) for n in ast.walk(scope))
-    if complex_literal or any(p.callee_module(ctx, n) == "cmath" for n in ast.walk(scope)):
+    complex_literal = any(isinstance(n, ast.Constant) and isinstance(n.value, complex) for n in walk(scope))
+    if complex_literal or any(p.callee_module(ctx, n) == "cmath" for n in walk(scope)):
         return "cmath"
     if ctx.imports.imports_any("math"):
         return "math"
@@ -60,7 +61,7 @@ def library_call(ctx: Context, kind: str, var: str, module: str, negated: bool =
 def read_after(ctx: Context, loop: ast.stmt, names: set[str]) -> bool:
     """True when code after the loop (in its scope) reads one of `names`."""
     end = (loop.end_lineno or loop.lineno, loop.end_col_offset or 0)
-    for n in ast.walk(ctx.scope(loop)):
+    for n in walk(ctx.scope(loop)):
         if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Load) and n.id in names:
             if (n.lineno, n.col_offset) >= end:
                 return True
@@ -69,7 +70,7 @@ def read_after(ctx: Context, loop: ast.stmt, names: set[str]) -> bool:
 
 def fresh(ctx: Context, node: ast.AST, base: str) -> str:
     """A name not used anywhere in the scope of `node`."""
-    used = {n.id for n in ast.walk(ctx.scope(node)) if isinstance(n, ast.Name)}
+    used = {n.id for n in walk(ctx.scope(node)) if isinstance(n, ast.Name)}
     name, i = base, 2
     while name in used:
         name, i = f"{base}_{i}", i + 1

@@ -8,6 +8,7 @@ from typing import TypeVar
 
 from auditor import patterns as p
 from auditor.rule import Context
+from auditor.nodes import walk
 
 _NESTED = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)
 Loop = ast.For | ast.While
@@ -124,7 +125,7 @@ def index_names(loop: Loop) -> set[str]:
 def _index_names(loop: Loop) -> set[str]:
     names = set()
     if isinstance(loop, ast.For):
-        names |= {n.id for n in ast.walk(loop.target) if isinstance(n, ast.Name)}
+        names |= {n.id for n in walk(loop.target) if isinstance(n, ast.Name)}
     for node in loop_statements(loop):
         if isinstance(node, ast.AugAssign) and isinstance(node.target, ast.Name) and isinstance(node.op, ast.Add):
             if p.is_integer_literal(node.value):
@@ -194,7 +195,7 @@ def is_sign_power(ctx: Context, node: ast.AST, loop: Loop | None = None) -> bool
 
 
 def contains_sign_power(ctx: Context, expr: ast.AST, loop: Loop | None = None) -> bool:
-    return any(is_sign_power(ctx, n, loop) for n in ast.walk(expr))
+    return any(is_sign_power(ctx, n, loop) for n in walk(expr))
 
 
 def is_negative_factor(expr: ast.AST) -> bool:
@@ -267,7 +268,7 @@ def _is_product(expr: ast.AST) -> bool:
 
 def _parity_test(test: ast.AST, idx: set[str]) -> bool:
     """`k % 2`, `k % 2 == 0`, `k & 1`, `not k % 2` on a loop counter."""
-    for n in ast.walk(test):
+    for n in walk(test):
         if isinstance(n, ast.BinOp) and (
             (isinstance(n.op, ast.Mod) and p.is_number(n.right, 2)) or (isinstance(n.op, ast.BitAnd) and p.is_one(n.right))
         ):
@@ -278,7 +279,7 @@ def _parity_test(test: ast.AST, idx: set[str]) -> bool:
 
 def parity_sign(ctx: Context, loop: Loop | None, expr: ast.AST, idx: set[str]) -> bool:
     """`1 if k % 2 == 0 else -1`, `np.where(k % 2, -1, 1)`, `1 - 2 * (k % 2)`: a sign set by parity."""
-    for n in ast.walk(expr):
+    for n in walk(expr):
         if isinstance(n, ast.IfExp) and _parity_test(n.test, idx):
             if sign_of(ctx, loop, n.body) != sign_of(ctx, loop, n.orelse):
                 return True

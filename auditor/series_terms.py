@@ -11,6 +11,7 @@ from auditor.series_signs import (
     Accumulation, Loop, _memo, accumulations, recurrence_ratio, alternation, index_names, new_values, parity_branches, sign_of, updates,
     value_before,
 )
+from auditor.nodes import walk
 
 
 @dataclass(frozen=True, slots=True)
@@ -99,9 +100,9 @@ def growth(ctx: Context, loop: Loop, acc: Accumulation) -> Growth | None:
 
 def value_names(expr: ast.AST) -> set[str]:
     """Variables read as values (callees and module prefixes like `math` excluded)."""
-    skip = {id(n.func) for n in ast.walk(expr) if isinstance(n, ast.Call)}
-    skip |= {id(n.value) for n in ast.walk(expr) if isinstance(n, ast.Attribute)}
-    return {n.id for n in ast.walk(expr) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Load) and id(n) not in skip}
+    skip = {id(n.func) for n in walk(expr) if isinstance(n, ast.Call)}
+    skip |= {id(n.value) for n in walk(expr) if isinstance(n, ast.Attribute)}
+    return {n.id for n in walk(expr) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Load) and id(n) not in skip}
 
 
 def _reads(expr: ast.expr, resolve) -> set[str]:  # type: ignore[no-untyped-def]
@@ -121,7 +122,7 @@ def integer_names(ctx: Context, loop: Loop) -> set[str]:
             ints |= {n for a in loop.iter.args for n in p.names_in(a)}  # range() takes ints only
         elif loop.iter.func.id == "enumerate" and isinstance(loop.target, ast.Tuple) and isinstance(loop.target.elts[0], ast.Name):
             ints.add(loop.target.elts[0].id)
-    assigned = {n.id for n in ast.walk(loop) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Store)}
+    assigned = {n.id for n in walk(loop) if isinstance(n, ast.Name) and isinstance(n.ctx, ast.Store)}
     for _ in range(3):
         for name in sorted(assigned - ints):
             before = value_before(ctx, loop, name)
@@ -145,7 +146,7 @@ def positive_series(ctx: Context, loop: Loop, acc: Accumulation) -> bool:
 
 def _index_power(expr: ast.expr, idx: set[str], resolve) -> bool:  # type: ignore[no-untyped-def]
     """`x**k` (a power with the counter in the exponent) somewhere in the term."""
-    for n in ast.walk(expr):
+    for n in walk(expr):
         if isinstance(n, ast.BinOp) and isinstance(n.op, ast.Pow) and p.names_in(n.right) & idx and p.names_in(n.left) - idx:
             return True
         if isinstance(n, ast.Name) and n.id not in idx:
@@ -179,9 +180,9 @@ def positive_sum_call(ctx: Context, call: ast.AST) -> bool:
     if not (ctx.family(call) in ("sum", "fsum") or (isinstance(call.func, ast.Name) and call.func.id == "sum")):
         return False
     gen = call.args[0]
-    idx = {n.id for g in gen.generators for n in ast.walk(g.target) if isinstance(n, ast.Name)}
+    idx = {n.id for g in gen.generators for n in walk(g.target) if isinstance(n, ast.Name)}
     term = gen.elt
-    if sign_of(ctx, None, term) < 0 or any(isinstance(n, ast.UnaryOp) and isinstance(n.op, ast.USub) for n in ast.walk(term)):
+    if sign_of(ctx, None, term) < 0 or any(isinstance(n, ast.UnaryOp) and isinstance(n.op, ast.USub) for n in walk(term)):
         return False
     return factorial_weight(ctx, term, idx) < 0 or _index_power(term, idx, lambda _: None)
 
@@ -189,7 +190,7 @@ def positive_sum_call(ctx: Context, call: ast.AST) -> bool:
 def _sources(ctx: Context, scope: ast.AST) -> dict[str, ast.AST]:
     """Name -> the loop or call that computes it as a positive power series, in this scope."""
     out: dict[str, ast.AST] = {}
-    for node in ast.walk(scope):
+    for node in walk(scope):
         if isinstance(node, (ast.For, ast.While)) and ctx.scope(node) is scope:
             for name in series_accumulators(ctx, node):
                 out.setdefault(name, node)
@@ -203,7 +204,7 @@ def subtracted_twin(ctx: Context, node: ast.AST) -> ast.BinOp | None:
     """`a - b` of two positive series where `node` (a loop or sum call) computes the earlier one."""
     scope = ctx.scope(node)
     subs = _memo(scope, "name_differences", lambda: [
-        n for n in ast.walk(scope) if isinstance(n, ast.BinOp) and isinstance(n.op, ast.Sub)
+        n for n in walk(scope) if isinstance(n, ast.BinOp) and isinstance(n.op, ast.Sub)
         and isinstance(n.left, ast.Name) and isinstance(n.right, ast.Name)
     ])
     if isinstance(node, (ast.For, ast.While)):
@@ -216,7 +217,7 @@ def subtracted_twin(ctx: Context, node: ast.AST) -> ast.BinOp | None:
     sources = _sources(ctx, scope)
     if not any(src is node for src in sources.values()):
         return None
-    for sub in ast.walk(scope):
+    for sub in walk(scope):
         if not (isinstance(sub, ast.BinOp) and isinstance(sub.op, ast.Sub)):
             continue
         left, right = sub.left, sub.right

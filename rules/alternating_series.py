@@ -20,6 +20,7 @@ from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
 from auditor import series as s
 from auditor.series import MAGNITUDE, loop_rewrite, severity_for, summed_term, vector_alternates
+from auditor.nodes import walk
 
 
 class AlternatingSeries(Rule):
@@ -103,7 +104,7 @@ class AlternatingSeries(Rule):
         for acc in s.accumulations(loop):
             if ctx.enclosing_loops(acc.stmt)[:1] != [loop] or not s.carried(loop, acc) or acc.target in s.index_names(loop):
                 continue
-            if any(isinstance(n, (ast.GeneratorExp, ast.ListComp)) for n in ast.walk(acc.term)):
+            if any(isinstance(n, (ast.GeneratorExp, ast.ListComp)) for n in walk(acc.term)):
                 continue  # a summed comprehension inside the term is reported on its own call
             why = s.alternation(ctx, loop, acc)
             if why is None or s.growth(ctx, loop, acc) is not None:

@@ -19,6 +19,7 @@ from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
 from auditor.elementary import is_nonnegative, reads_variables, spelled_like, stable_origin
+from auditor.nodes import walk
 
 #: the two-argument arctangent of each library
 _ATAN2 = {"math": "atan2", "numpy": "arctan2", "torch": "atan2", "jax.numpy": "arctan2", "cupy": "arctan2",
@@ -58,7 +59,7 @@ class AtanOfRatio(Rule):
         if not (isinstance(ratio, ast.BinOp) and isinstance(ratio.op, ast.Div)):
             return
         y, x = ratio.left, ratio.right
-        if module == "cmath" or any(isinstance(n, ast.Constant) and isinstance(n.value, complex) for n in ast.walk(ratio)):
+        if module == "cmath" or any(isinstance(n, ast.Constant) and isinstance(n.value, complex) for n in walk(ratio)):
             return  # complex arctangent: no quadrant to lose, and atan2 takes no complex arguments
         if not reads_variables(ctx, y) or not reads_variables(ctx, x):
             return

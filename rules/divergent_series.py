@@ -17,6 +17,7 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
 from auditor import series as s
+from auditor.nodes import walk
 
 _SMALL_COUNT = 4  #: a literal count up to this many terms needs unusual inputs to go wrong
 
@@ -105,7 +106,7 @@ class DivergentSeries(Rule):
         for acc in s.accumulations(loop):
             names = p.names_in(acc.term)
             if table.element not in names or not any(isinstance(n, ast.BinOp) and isinstance(n.op, ast.Div)
-                                                     for n in ast.walk(acc.term)):
+                                                     for n in walk(acc.term)):
                 continue
             xnames = names - idx - {table.element, acc.target}
             if s.smallest_term_stop(loop, names - idx, idx, xnames):
@@ -161,9 +162,9 @@ def _count(loop: ast.For | ast.While) -> int | None:
 def _argument(g: s.Growth) -> str:
     """The series argument: variables in a denominator, outside function calls (`x` in `k! / x**k`)."""
     names: set[str] = set()
-    for node in ast.walk(g.expr):
+    for node in walk(g.expr):
         if isinstance(node, ast.BinOp) and isinstance(node.op, ast.Div):
-            inside_calls = {id(n) for c in ast.walk(node.right) if isinstance(c, ast.Call) for n in ast.walk(c)}
-            names |= {n.id for n in ast.walk(node.right) if isinstance(n, ast.Name) and id(n) not in inside_calls}
+            inside_calls = {id(n) for c in walk(node.right) if isinstance(c, ast.Call) for n in walk(c)}
+            names |= {n.id for n in walk(node.right) if isinstance(n, ast.Name) and id(n) not in inside_calls}
     names &= set(g.xnames)
     return ", ".join(sorted(names or g.xnames))

@@ -16,6 +16,7 @@ from collections.abc import Iterator
 
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
+from auditor.nodes import walk
 
 #: linear-algebra modules that offer `solve` and `lstsq` with numpy's meaning
 _SOLVERS = ("numpy.linalg", "scipy.linalg", "jax.numpy.linalg", "torch.linalg", "cupy.linalg")
@@ -52,7 +53,7 @@ def _reused(ctx: Context, product: ast.AST, call: ast.Call) -> bool:
     for anc in ctx.ancestors(product):
         if isinstance(anc, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
             return False
-        if isinstance(anc, _REPEATS) and not any(n is call for n in ast.walk(anc)):
+        if isinstance(anc, _REPEATS) and not any(n is call for n in walk(anc)):
             return True
     return False
 
@@ -61,7 +62,7 @@ def used_elsewhere(ctx: Context, name: ast.expr, product: ast.AST) -> bool:
     """True when the local holding the inverse is also read outside matrix products (e.g. returned)."""
     if not isinstance(name, ast.Name):
         return False
-    for node in ast.walk(ctx.scope(product)):
+    for node in walk(ctx.scope(product)):
         if isinstance(node, ast.Name) and node.id == name.id and isinstance(node.ctx, ast.Load):
             parent = ctx.parent(node)
             if parent is None or p.product_pair(ctx, parent) is None:

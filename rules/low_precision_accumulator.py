@@ -15,6 +15,7 @@ from collections.abc import Iterator
 
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
+from auditor.nodes import walk
 
 _LOW = {"float32": "float32", "single": "float32", "float16": "float16", "half": "float16", "bfloat16": "bfloat16"}
 _LOW_STRINGS = {"float32": "float32", "f4": "float32", "<f4": "float32", "single": "float32",
@@ -120,7 +121,7 @@ def with_float64_dtype(ctx: Context, call: ast.Call, module: str) -> tuple[str |
 
 def accumulated_in_loop(ctx: Context, name: str, after: ast.stmt) -> bool:
     """True when `name` (or an element of it) is added to inside a loop after its allocation."""
-    for node in ast.walk(ctx.scope(after)):
+    for node in walk(ctx.scope(after)):
         if not isinstance(node, (ast.AugAssign, ast.Assign)) or node.lineno <= after.lineno:
             continue
         if isinstance(node, ast.AugAssign):

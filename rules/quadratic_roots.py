@@ -17,6 +17,7 @@ from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
 from auditor.elementary import RootSum, is_discriminant, root_sum, spelled_like, stable_origin
+from auditor.nodes import walk
 
 _MSG = ("when b*b is much larger than |4*a*c| one root of the textbook formula cancels (for a = c = 1, b = 1e8 "
         "the small root is 25% wrong); use q = -0.5*(b + copysign(sqrt(disc), b)) and the roots q/a and c/q")
@@ -26,7 +27,7 @@ def sign_guarded(ctx: Context, node: ast.AST, b: ast.expr) -> bool:
     """True inside a branch chosen by a test on b (`if b > 0:`, `... if b < 0 else ...`, `np.where(b > 0, ...)`):
     the author already picks the formula by the sign of b (as this rule's own rewrite does)."""
     def tests_b(test: ast.AST) -> bool:
-        return any(p.same_expr(n, b) for n in ast.walk(test))
+        return any(p.same_expr(n, b) for n in walk(test))
 
     child: ast.AST = node
     for anc in ctx.ancestors(node):

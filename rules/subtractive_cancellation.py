@@ -29,6 +29,7 @@ from auditor import patterns as p
 from auditor.elementary import (
     Operands, difference_operands, reads_variables, related, spelled_like, stable_origin,
 )
+from auditor.nodes import walk
 
 #: elementary functions whose difference at related arguments is this rule's (sqrt is sqrt-difference's)
 _SMOOTH = frozenset({"exp", "exp2", "log", "log10", "log2", "log1p", "expm1", "sin", "cos", "tan", "sinh", "cosh",
@@ -90,7 +91,7 @@ def is_difference_quotient(ctx: Context, node: ast.AST) -> bool:
     if isinstance(parent, ast.Assign) and len(parent.targets) == 1 and isinstance(parent.targets[0], ast.Name):
         name = parent.targets[0].id
         return any(isinstance(n, ast.BinOp) and isinstance(n.op, ast.Div) and isinstance(n.left, ast.Name)
-                   and n.left.id == name and n.lineno > parent.lineno for n in ast.walk(ctx.scope(node)))
+                   and n.left.id == name and n.lineno > parent.lineno for n in walk(ctx.scope(node)))
     return False
 
 

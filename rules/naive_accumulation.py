@@ -20,6 +20,8 @@ from auditor import patterns as p
 #: a `range(k)` or literal sequence at most this long is a short fixed loop
 _SHORT = 64
 _NESTED = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)
+#: Neumaier's variant of Kahan summation, quoted in the advice (Neumaier, ZAMM 54, 1974, from memory)
+NEUMAIER = "t = s + v; c += (s - t) + v if abs(s) >= abs(v) else (v - t) + s; s = t; the sum is s + c"
 
 
 @dataclass(frozen=True, slots=True)
@@ -200,17 +202,51 @@ def wanted(ctx: Context, loop: ast.For, acc: Accumulation) -> bool:
     return not is_series(ctx, loop, acc.term) and not compensated(loop, acc) and read_after(ctx, loop, acc.target)
 
 
+def inlined(ctx: Context, loop: ast.For, temps: list[ast.stmt], acc: Accumulation) -> str | None:
+    """The term's text with each per-pass temporary (`t_mid = ...` before the addition, read once
+    by the term and nowhere else) replaced by its value; None when that is not possible."""
+    term, text = acc.term, p.text(ctx, acc.term)
+    if term.lineno != term.end_lineno:
+        return None if temps else text
+    edits = []
+    for stmt in temps:
+        if not (isinstance(stmt, ast.Assign) and len(stmt.targets) == 1 and isinstance(stmt.targets[0], ast.Name)):
+            return None
+        name = stmt.targets[0].id
+        uses = [n for n in ast.walk(term) if isinstance(n, ast.Name) and n.id == name]
+        reads = [n for n in ast.walk(ctx.scope(loop)) if isinstance(n, ast.Name) and n.id == name
+                 and isinstance(n.ctx, ast.Load)]
+        if name == acc.target or len(uses) != 1 or len(reads) != 1 or p.names_in(stmt.value) & {acc.target}:
+            return None
+        edits.append((uses[0].col_offset - term.col_offset, uses[0].end_col_offset - term.col_offset,  # type: ignore[operator]
+                      p.operand_text(ctx, stmt.value)))
+    for lo, hi, value in sorted(edits, reverse=True):
+        text = text[:lo] + value + text[hi:]
+    return text
+
+
 def fsum_text(ctx: Context, loop: ast.For, acc: Accumulation) -> tuple[str | None, tuple[str, ...]]:
-    """`total += math.fsum(values)` when the loop does nothing but add one term per item."""
-    if len(loop.body) != 1 or loop.body[0] is not acc.stmt or loop.orelse or not isinstance(loop, ast.For):
+    """`total += math.fsum(term for item in values [if cond])` when each pass adds one term: the body
+    is the addition, under at most one `if` without `else`, after per-pass temporaries it inlines."""
+    body, cond = loop.body, None
+    if len(body) == 1 and isinstance(body[0], ast.If) and not body[0].orelse and body[0].body == [acc.stmt]:
+        body, cond = [acc.stmt], body[0].test
+    if body[-1] is not acc.stmt or loop.orelse or not isinstance(loop, ast.For):
+        return None, ()
+    if any(read_after(ctx, loop, name) for name in {n.id for n in ast.walk(loop.target) if isinstance(n, ast.Name)} | {
+            t.id for s in body[:-1] if isinstance(s, ast.Assign) for t in s.targets if isinstance(t, ast.Name)}):
+        return None, ()  # the loop variable (or a temporary) is still read after the loop
+    term = inlined(ctx, loop, body[:-1], acc)
+    if term is None:
         return None, ()
     fsum, imports = p.spelled(ctx, "math", "fsum")
     target, it = p.text(ctx, loop.target), p.text(ctx, loop.iter)
-    if isinstance(acc.term, ast.Name) and isinstance(loop.target, ast.Name) and acc.term.id == loop.target.id:
-        body = f"{fsum}({it})"
+    if cond is None and not body[:-1] and isinstance(acc.term, ast.Name) and isinstance(loop.target, ast.Name) \
+            and acc.term.id == loop.target.id:
+        call = f"{fsum}({it})"
     else:
-        body = f"{fsum}({p.text(ctx, acc.term)} for {target} in {it})"
-    return f"{acc.target} {'-' if acc.subtract else '+'}= {body}", imports
+        call = f"{fsum}({term} for {target} in {it}{f' if {p.text(ctx, cond)}' if cond is not None else ''})"
+    return f"{acc.target} {'-' if acc.subtract else '+'}= {call}", imports
 
 
 class NaiveAccumulation(Rule):
@@ -231,7 +267,14 @@ class NaiveAccumulation(Rule):
         Example("def energy(x, w):\n    e = 0.0\n    for i in range(len(x)):\n        e = e + w[i] * x[i]\n    return e\n",
                 True, "e += math.fsum(w[i] * x[i] for i in range(len(x)))"),
         Example("def mean_flow(rows):\n    acc = 0\n    for r in rows:\n        if r.ok:\n            acc += r.flow / r.area\n"
-                "    return acc / len(rows)\n", True),
+                "    return acc / len(rows)\n", True, "acc += math.fsum(r.flow / r.area for r in rows if r.ok)"),
+        Example("from math import fsum\ndef heat(t0, t1, n):\n    w = (t1 - t0) / n\n    q = 0.0\n    for i in range(n):\n"
+                "        t = t0 + (i + 0.5) * w\n        q += 2.5 * t**1.5 * w\n    return q\n", True,
+                "q += fsum(2.5 * (t0 + (i + 0.5) * w)**1.5 * w for i in range(n))", note="midpoint rule, temporary inlined"),
+        Example("def total(values, log):\n    s = 0.0\n    for v in values:\n        log.append(s)\n        s += v\n"
+                "    return s\n", True, note="the loop does more than add: Neumaier advice, no rewrite"),
+        Example("def total(values):\n    s = 0.0\n    for v in values:\n        s += v\n    return s, v\n", True,
+                note="the loop variable is read after the loop: no rewrite"),
         Example("def count(rows):\n    n = 0\n    for r in rows:\n        n += 1\n    return n\n", False),
         Example("def f(a, b, c):\n    s = 0.0\n    for v in (a, b, c):\n        s += v\n    return s\n", False,
                 note="short fixed loop"),
@@ -262,7 +305,8 @@ class NaiveAccumulation(Rule):
         for acc in accs:
             if wanted(ctx, node, acc):
                 rewrite, imports = fsum_text(ctx, node, acc)
-                fix = rewrite or "math.fsum, np.sum (pairwise) or Kahan summation"
+                fix = rewrite or ("math.fsum or np.sum (pairwise) over the terms, or, where the loop must stay, "
+                                  f"Neumaier's compensated update (advice, not verified: {NEUMAIER})")
                 yield Hit(node, f"the running sum `{acc.target}` commits one rounding per item, so its error can grow "
                           f"like n*eps*sum|v| (1e-10 relative after 1e6 items, worse when terms cancel); use {fix}",
                           rewrite=rewrite, imports=imports)

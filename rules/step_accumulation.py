@@ -109,6 +109,12 @@ def step_count(loop: ast.For) -> str | None:
     return None
 
 
+def simple_start(expr: ast.expr) -> bool:
+    """Numbers, names and arithmetic on them: the same value when re-read inside the loop."""
+    return all(isinstance(n, (ast.Constant, ast.Name, ast.Load, ast.BinOp, ast.UnaryOp, ast.operator, ast.unaryop))
+               for n in ast.walk(expr))
+
+
 def counted_text(ctx: Context, stmt: ast.stmt, loop: ast.For | ast.While, target: ast.expr, step: ast.expr,
                  subtract: bool) -> str | None:
     """`t = t0 + (i + 1) * dt` when the loop index counts the steps and t starts from a fixed t0."""
@@ -128,6 +134,9 @@ def counted_text(ctx: Context, stmt: ast.stmt, loop: ast.For | ast.While, target
     start = before[-1].value
     if ctx.enclosing_loops(before[-1].stmt) != ctx.enclosing_loops(loop) or p.names_in(start) & changing_names(loop):
         return None
+    rebound = any(before[-1].line < b.line <= loop.lineno for n in p.names_in(start) for b in flow.of(n))
+    if not simple_start(start) or target.id in p.names_in(start) or rebound:
+        return None  # `t = clock()` would be called again on every pass: t0 must be a plain value
     sign = "-" if subtract else "+"
     scaled = f"{count} * {p.operand_text(ctx, step)}" if count != "1" else p.text(ctx, step)
     if p.is_number(start, 0) and not subtract:
@@ -152,6 +161,8 @@ class StepAccumulation(Rule):
                 "        out.append(math.sin(t))\n    return out\n", True, "t = (i + 1) * dt"),
         Example("def ticks(t0, n):\n    t = t0\n    for k in range(1, n + 1):\n        t = t + 0.1\n        print(t)\n",
                 True, "t = t0 + k * 0.1"),
+        Example("def log(clock, n, dt):\n    t = clock.now()\n    for i in range(n):\n        t += dt\n        print(t)\n",
+                True, note="t0 is a call: re-reading it each pass would not be t0; advice only"),
         Example("def run(sim, t_end, dt):\n    t = 0.0\n    while t < t_end:\n        sim.advance(dt)\n"
                 "        t += dt\n    return sim\n", True),
         Example("def f(xs):\n    i = 0\n    for x in xs:\n        i += 1\n    return i\n", False),
@@ -180,7 +191,8 @@ class StepAccumulation(Rule):
         loop = loops[0]
         rewrite = counted_text(ctx, node, loop, target, step, subtract)
         guard = isinstance(loop, ast.While) and ast.unparse(target) in {ast.unparse(n) for n in ast.walk(loop.test)}
-        fix = rewrite or "t = t0 + k * dt with a step counter k"
+        fix = rewrite or ("t = t0 + k * dt with a step counter k, t0 the value before the loop "
+                          "(advice, not verified: the loop has no index counting the steps, or t0 is not a plain value)")
         extra = "; `while` tests on the drifting value can take one step too many or too few" if guard else ""
         yield Hit(node, f"each addition rounds again, so after k steps the value is off by up to k*eps*|t| "
                   f"(0.1 added ten times gives 0.9999999999999999){extra}; use {fix}",

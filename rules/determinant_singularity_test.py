@@ -55,6 +55,21 @@ def in_test_position(ctx: Context, node: ast.AST) -> bool:
     return isinstance(parent, ast.Call) and isinstance(parent.func, ast.Name) and parent.func.id == "bool"
 
 
+def advice(ctx: Context, det: ast.Call, singular: bool) -> tuple[str, str]:
+    """The rank test and the condition-number test meaning "A is singular" (or "nonsingular"),
+    spelled in this file's import style. They change the predicate, so they are offered as advice,
+    never as a rewrite: the dynamic pass would see the same False on well-conditioned samples and
+    could report a different test as verified."""
+    matrix = p.text(ctx, det.args[0])
+    rank, _ = p.spelled_qualified(ctx, "numpy.linalg.matrix_rank")
+    cond, _ = p.spelled_qualified(ctx, "numpy.linalg.cond")
+    finfo, _ = p.spelled_qualified(ctx, "numpy.finfo")
+    # len() rather than .shape[0]: it also works for a nested list
+    if singular:
+        return f"{rank}({matrix}) < len({matrix})", f"{cond}({matrix}) > 1 / {finfo}(float).eps"
+    return f"{rank}({matrix}) == len({matrix})", f"{cond}({matrix}) < 1 / {finfo}(float).eps"
+
+
 class DeterminantSingularityTest(Rule):
     id = "determinant-singularity-test"
     title = "singularity tested with the determinant"
@@ -80,15 +95,29 @@ class DeterminantSingularityTest(Rule):
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
         if isinstance(node, ast.Compare):
             if self._compares_small(node, ctx):
-                yield self._hit(node)
+                yield self._hit(ctx, node, *self._direction(node, ctx))
         elif isinstance(node, ast.Call):
             if ctx.family(node) == "det" and in_test_position(ctx, node):
-                yield self._hit(node)
+                yield self._hit(ctx, node, node, False)  # `if det(M):` holds for a nonsingular M
             elif (p.callee_module(ctx, node) in ("numpy", "math", "torch", "cupy", "jax.numpy")
                   and (ctx.qualname(node.func) or "").endswith(".isclose") and len(node.args) >= 2):
                 a, b = node.args[0], node.args[1]
                 if determinant(ctx, a) and small_threshold(ctx, b) == 0 or determinant(ctx, b) and small_threshold(ctx, a) == 0:
-                    yield self._hit(node)
+                    found = determinant(ctx, a) or determinant(ctx, b)
+                    assert found is not None
+                    yield self._hit(ctx, node, found[0], True)
+
+    @staticmethod
+    def _direction(node: ast.Compare, ctx: Context) -> tuple[ast.Call, bool]:
+        """(det call, True when the comparison holds for a singular matrix): det == 0, |det| < tol."""
+        op, flipped = node.ops[0], False
+        found = determinant(ctx, node.left)
+        if found is None:
+            found, flipped = determinant(ctx, node.comparators[0]), True
+        assert found is not None
+        singular = isinstance(op, (ast.Eq, ast.Lt, ast.LtE, ast.Is)) if not flipped else \
+            isinstance(op, (ast.Eq, ast.Gt, ast.GtE, ast.Is))
+        return found[0], singular
 
     @staticmethod
     def _compares_small(node: ast.Compare, ctx: Context) -> bool:
@@ -110,7 +139,9 @@ class DeterminantSingularityTest(Rule):
         return absolute or tol != 0
 
     @staticmethod
-    def _hit(node: ast.AST) -> Hit:
+    def _hit(ctx: Context, node: ast.AST, det: ast.Call, singular: bool) -> Hit:
+        rank, cond = advice(ctx, det, singular)
         return Hit(node, "the determinant scales as the n-th power of the entries (det(0.1*I) is 1e-30 for n = 30) "
-                   "and is rarely exactly 0 for a singular matrix; test np.linalg.cond(A) > 1/eps or "
-                   "np.linalg.matrix_rank(A) < n instead")
+                   f"and is rarely exactly 0 for a singular matrix; test `{rank}` or `{cond}` instead "
+                   "(advice, not verified: a rank or condition test is a different predicate, so the dynamic pass "
+                   "cannot check it against the determinant test)")

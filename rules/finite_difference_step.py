@@ -103,6 +103,38 @@ def quotient_kind(ctx: Context, num: ast.expr, h: ast.expr, squared: bool) -> st
     return None
 
 
+#: kind -> the power of eps in the best step (truncation order + derivative order = 1 / power)
+_POWER = {"forward": "", "central": " ** (1 / 3)", "second": " ** 0.25"}
+
+
+def base_point(ctx: Context, num: ast.expr, h: ast.expr) -> ast.expr | None:
+    """x in f(x + h): the other operand of the first shifted argument of the numerator."""
+    for term, _ in p.sum_terms(num):
+        for node in ast.walk(ctx.origin(term)):
+            if isinstance(node, ast.BinOp) and isinstance(node.op, (ast.Add, ast.Sub)):
+                if p.same_expr(node.right, h):
+                    return node.left
+                if p.same_expr(node.left, h) and isinstance(node.op, ast.Add):
+                    return node.right
+    return None
+
+
+def step_advice(ctx: Context, kind: str, num: ast.expr, h: ast.expr) -> str | None:
+    """The best step for `kind`, scaled from x and made representable, as statements to put before
+    the quotient. Advice only: a new step changes the estimate itself, and whether it is closer to
+    f'(x) needs the exact derivative, which the dynamic pass does not have."""
+    x = base_point(ctx, num, h)
+    if x is None or any(isinstance(n, ast.Call) for n in ast.walk(x)):
+        return None
+    name = h.id if isinstance(h, ast.Name) else "h"
+    eps = (f"{p.spelled_qualified(ctx, 'numpy.finfo')[0]}(float).eps" if ctx.imports.imports_any("numpy")
+           else "sys.float_info.epsilon")
+    scale = f"{p.spelled(ctx, 'math', 'sqrt')[0]}({eps})" if kind == "forward" else f"{eps}{_POWER[kind]}"
+    xs = p.operand_text(ctx, x)
+    step = f"{name} = {scale} * max(1.0, abs({p.text(ctx, x)})); {name} = ({xs} + {name}) - {xs}"
+    return step
+
+
 class FiniteDifferenceStep(Rule):
     id = "finite-difference-step"
     title = "finite-difference step badly sized for double precision"
@@ -119,6 +151,9 @@ class FiniteDifferenceStep(Rule):
                 "    return (g(t + eps) - g(t - eps)) / (2 * eps)\n", True),
         Example("def rate(f, x, h=1e-14):\n    fx = f(x)\n    return (f(x + h) - fx) / h\n", True),
         Example("def slope(f, x):\n    return (f(x + 0.1) - f(x)) / 0.1\n", True, note="too large"),
+        Example("import math\ndef slope(x):\n    h = 1e-13\n    return (math.exp(x + h) - math.exp(x)) / h\n", True,
+                note="advice only, never a rewrite: `h = math.sqrt(sys.float_info.epsilon) * max(1.0, abs(x)); "
+                "h = (x + h) - x` changes the estimate, which only the exact derivative could judge"),
         Example("def slope(f, x):\n    h = 1e-8\n    return (f(x + h) - f(x)) / h\n", False),
         Example("import math\ndef slope(f, x):\n    h = math.sqrt(2.2e-16) * max(abs(x), 1.0)\n"
                 "    h = (x + h) - x\n    return (f(x + h) - f(x)) / h\n", False),
@@ -145,7 +180,11 @@ class FiniteDifferenceStep(Rule):
         left, most = max(0.0, -math.log10(error)), -math.log10(best)
         cause = (f"rounding error eps/h is about {EPS / h ** deriv:.0e}" if small
                  else f"truncation error grows like h**{order} = {h ** order:.0e}")
+        advice = step_advice(ctx, kind, node.left, h_node)
+        use = "" if isinstance(h_node, ast.Name) else " and use h for the literal step"
+        fix = (f"set `{advice}`{use} (advice, not verified: a new step changes the estimate, and only the exact "
+               "derivative could show it is closer)") if advice else \
+            "scale h that way and divide by the representable step h = (x + h) - x"
         yield Hit(node, f"with h = {h:.3g} the {cause}, leaving about {left:.0f} correct digits of the {kind} difference "
-                  f"(about {most:.0f} at the best step {_BEST[kind]} times max(|x|, 1)); scale h that way and "
-                  "divide by the representable step h = (x + h) - x",
+                  f"(about {most:.0f} at the best step {_BEST[kind]} times max(|x|, 1)); {fix}",
                   severity=None if small else Severity.NOTE)

@@ -226,8 +226,8 @@ def adjusted_severity(finding: Finding, m: Measurement) -> Severity:
 
 
 def _rewrite_after(finding: Finding, fm: FindingMeasurement) -> Rewrite | None:
-    if finding.rewrite is None:
-        return None
+    if finding.rewrite is None or finding.rewrite.advice:
+        return finding.rewrite
     after = fm.after.digits_lost_max if fm.after is not None else None
     return Rewrite(finding.rewrite.text, fm.verified, after, fm.note, finding.rewrite.imports)
 
@@ -250,6 +250,8 @@ def measure_one(finding: Finding, source_text: str | None, project: Project) -> 
         return finding.with_(measurement=not_measured("the source could not be read again"))
     try:
         rewrite = finding.rewrite
+        if rewrite is not None and rewrite.advice:
+            rewrite = None  # advice changes what the code computes: there is nothing to verify it against
         fm = measure_finding(finding, source_text, project.config, rewrite.text if rewrite else None,
                              project=project, imports=rewrite.imports if rewrite else ())
     except Exception as exc:  # a bug in the dynamic pass must not stop the run: report it as data

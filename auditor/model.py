@@ -85,6 +85,7 @@ class Rewrite:
     digits_lost_max_after: float | None = None  #: worst digits lost by the rewrite on the same samples
     note: str = ""  #: advice or why it is unverified; not part of the JSON contract
     imports: tuple[str, ...] = ()  #: import statements the rewrite needs, e.g. "import math"
+    advice: bool = False  #: changes what the code computes (e.g. a new test): offered, never verified or applied
 
 
 @dataclass(frozen=True, slots=True)

@@ -26,6 +26,9 @@ class Hit:
     severity: Severity | None = None  #: overrides the rule's default when set
     rewrite: str | None = None  #: replacement source text for the node, if a stable form exists
     imports: tuple[str, ...] = ()  #: imports the rewrite needs, e.g. ("import math",)
+    #: set when the rewrite changes what the code computes (a different test, a different step):
+    #: it is shown as advice and never verified or applied
+    advice: str = ""
 
 
 @dataclass(frozen=True, slots=True)

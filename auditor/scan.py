@@ -105,7 +105,8 @@ def _finding(ctx: Context, rule: Rule, hit: Hit, lines: Sequence[str]) -> Findin
     snippet = ctx.segment(hit.node)
     rewrite = None
     if hit.rewrite is not None:
-        rewrite = Rewrite(text=hit.rewrite, verified=False, imports=hit.imports, note="not yet measured")
+        note = f"advice, not verified: {hit.advice}" if hit.advice else "not yet measured"
+        rewrite = Rewrite(text=hit.rewrite, verified=False, imports=hit.imports, note=note, advice=bool(hit.advice))
     return Finding(
         rule=rule.id,
         severity=hit.severity or rule.severity,

@@ -55,19 +55,19 @@ def in_test_position(ctx: Context, node: ast.AST) -> bool:
     return isinstance(parent, ast.Call) and isinstance(parent.func, ast.Name) and parent.func.id == "bool"
 
 
-def advice(ctx: Context, det: ast.Call, singular: bool) -> tuple[str, str]:
+def advice(ctx: Context, det: ast.Call, singular: bool) -> tuple[str, str, tuple[str, ...]]:
     """The rank test and the condition-number test meaning "A is singular" (or "nonsingular"),
     spelled in this file's import style. They change the predicate, so they are offered as advice,
     never as a rewrite: the dynamic pass would see the same False on well-conditioned samples and
     could report a different test as verified."""
     matrix = p.text(ctx, det.args[0])
-    rank, _ = p.spelled_qualified(ctx, "numpy.linalg.matrix_rank")
+    rank, imports = p.spelled_qualified(ctx, "numpy.linalg.matrix_rank")
     cond, _ = p.spelled_qualified(ctx, "numpy.linalg.cond")
     finfo, _ = p.spelled_qualified(ctx, "numpy.finfo")
     # len() rather than .shape[0]: it also works for a nested list
     if singular:
-        return f"{rank}({matrix}) < len({matrix})", f"{cond}({matrix}) > 1 / {finfo}(float).eps"
-    return f"{rank}({matrix}) == len({matrix})", f"{cond}({matrix}) < 1 / {finfo}(float).eps"
+        return f"{rank}({matrix}) < len({matrix})", f"{cond}({matrix}) > 1 / {finfo}(float).eps", imports
+    return f"{rank}({matrix}) == len({matrix})", f"{cond}({matrix}) < 1 / {finfo}(float).eps", imports
 
 
 class DeterminantSingularityTest(Rule):
@@ -140,8 +140,9 @@ class DeterminantSingularityTest(Rule):
 
     @staticmethod
     def _hit(ctx: Context, node: ast.AST, det: ast.Call, singular: bool) -> Hit:
-        rank, cond = advice(ctx, det, singular)
-        return Hit(node, "the determinant scales as the n-th power of the entries (det(0.1*I) is 1e-30 for n = 30) "
+        rank, cond, imports = advice(ctx, det, singular)
+        return Hit(node, rewrite=rank, imports=imports, advice="a rank test is a different predicate from a determinant test",
+                   message="the determinant scales as the n-th power of the entries (det(0.1*I) is 1e-30 for n = 30) "
                    f"and is rarely exactly 0 for a singular matrix; test `{rank}` or `{cond}` instead "
                    "(advice, not verified: a rank or condition test is a different predicate, so the dynamic pass "
                    "cannot check it against the determinant test)")

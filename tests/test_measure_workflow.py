@@ -57,3 +57,17 @@ def test_changed_since_limits_measurement(tmp_path, capsys, monkeypatch):
     _, data = run_json(capsys, "measure", "--format", "json", "--changed-since", "HEAD", ".")
     assert [f["path"] for f in data["findings"]] == ["new.py"]
     assert data["findings"][0]["measurement"] is not None
+
+
+def test_advice_rewrites_are_never_verified(tmp_path, capsys):
+    # a rank test is a different predicate: even where it agrees with det(A) == 0 on every sample,
+    # it must stay unverified and unapplied
+    path = tmp_path / "lin.py"
+    path.write_text("import numpy as np\n\ndef check(A):\n    return np.linalg.det(A) == 0\n")
+    _, data = run_json(capsys, "measure", "--format", "json", str(path))
+    (f,) = data["findings"]
+    assert f["rewrite"]["text"] == "np.linalg.matrix_rank(A) < len(A)"
+    assert f["rewrite"]["verified"] is False
+    assert main(["fix", "--write", str(path)]) in (0, 1)
+    capsys.readouterr()
+    assert "det(A) == 0" in path.read_text()

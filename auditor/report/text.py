@@ -57,7 +57,7 @@ def _finding_lines(f: Finding, sources: dict[str, list[str]]) -> list[str]:
     if f.measurement is not None:
         out.append(f"    measured: {_measurement_line(f.measurement)}")
     if f.rewrite is not None:
-        status = "verified" if f.rewrite.verified else "unverified"
+        status = "verified" if f.rewrite.verified else ("advice, never applied" if f.rewrite.advice else "unverified")
         after = f", digits lost after {f.rewrite.digits_lost_max_after:.1f}" if f.rewrite.digits_lost_max_after is not None else ""
         out.append(f"    rewrite ({status}{after}): {f.rewrite.text}")
         if f.rewrite.note and not f.rewrite.verified:

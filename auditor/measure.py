@@ -257,7 +257,12 @@ def measure_one(finding: Finding, source_text: str | None, project: Project) -> 
     except Exception as exc:  # a bug in the dynamic pass must not stop the run: report it as data
         return finding.with_(measurement=not_measured(f"internal error in the dynamic pass: {type(exc).__name__}: {exc}"))
     m = _with_points(fm.measurement, fm.samples)
-    return finding.with_(measurement=m, rewrite=_rewrite_after(finding, fm), severity=adjusted_severity(finding, m))
+    severity = adjusted_severity(finding, m)
+    if severity is Severity.NOTE and any(isinstance(s.reference, bool) for s in fm.samples):
+        # A true/false test that rounding does not flip is not thereby a sound test (a determinant
+        # threshold is wrong at any precision): the rule's own severity stands.
+        severity = finding.severity
+    return finding.with_(measurement=m, rewrite=_rewrite_after(finding, fm), severity=severity)
 
 
 def _read(path: str, config: Config) -> str | None:

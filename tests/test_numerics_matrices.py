@@ -146,3 +146,19 @@ def test_array_methods_mean_and_sum():
     lse = run_probe("np.log(np.exp(v).sum())", ["v=700..800"], [], 8, 0)
     assert lse.measurement.verdict is Verdict.UNSTABLE
     assert lse.rewrite is not None and lse.rewrite["verified"]
+
+
+def test_determinant_test_keeps_its_severity_when_rounding_does_not_flip_it(tmp_path):
+    # det(A) < 1e-12 answers the same in float64 and exactly on these matrices (mpmath.det), yet
+    # it is no test of singularity (det(0.1 I_30) = 1e-30, common practice): the warning stays.
+    from auditor.config import Config
+    from auditor.measure import measure_paths
+    from auditor.model import Severity
+
+    (tmp_path / "check.py").write_text(
+        "import numpy as np\n\ndef degenerate(A):\n    return abs(np.linalg.det(A)) < 1e-12\n", encoding="utf-8")
+    report = measure_paths([str(tmp_path / "check.py")], Config(samples=16))
+    (finding,) = [f for f in report.findings if f.rule == "determinant-singularity-test"]
+    assert finding.measurement.verdict is Verdict.BENIGN and finding.measurement.samples == 16
+    assert finding.severity is Severity.WARNING
+    assert "true/false result" in finding.measurement.reason

@@ -53,3 +53,12 @@ def walk(node: ast.AST) -> Iterator[ast.AST]:
                         push(item)
             elif value is not None:
                 push(value)
+
+
+def link_parents(tree: ast.AST) -> dict[int, ast.AST]:
+    """id(child) -> parent for every node under `tree` (no attributes set on the nodes)."""
+    parents: dict[int, ast.AST] = {}
+    for node in walk(tree):
+        for child in children(node):
+            parents[id(child)] = node
+    return parents

@@ -10,10 +10,11 @@ from typing import Any, ClassVar, TypeVar
 from auditor.flow import Binding, ScopeFlow, analyse_scope
 from auditor.model import Severity
 from auditor.names import family_of
+from auditor.nodes import link_parents
 from auditor.resolve import ImportTable, collect_imports
 
-PARENT = "_auditor_parent"
 T = TypeVar("T")
+_FUNCTIONS = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)
 _NEWLINE = re.compile(r"\r\n|\r|\n")  # the line ends the tokenizer counts (not form feeds)
 
 
@@ -64,8 +65,10 @@ class Rule:
 class Context:
     """Facts about one file, computed once and shared by every rule."""
 
-    def __init__(self, tree: ast.Module, path: str, source: str) -> None:
+    def __init__(self, tree: ast.Module, path: str, source: str, parents: dict[int, ast.AST] | None = None) -> None:
         self.tree = tree
+        self._parents = parents if parents is not None else link_parents(tree)
+        self._scopes: dict[int, ast.AST] = {}
         self.path = path
         self.source = source
         self._imports: ImportTable | None = None
@@ -107,10 +110,9 @@ class Context:
         return ast.get_source_segment(self.source, node) or ""
 
     # -- structure -------------------------------------------------------
-    @staticmethod
-    def parent(node: ast.AST) -> ast.AST | None:
-        """The syntactic parent (set by the engine's walk)."""
-        return getattr(node, PARENT, None)
+    def parent(self, node: ast.AST) -> ast.AST | None:
+        """The syntactic parent (recorded by the engine's walk)."""
+        return self._parents.get(id(node))
 
     def ancestors(self, node: ast.AST) -> Iterator[ast.AST]:
         current = self.parent(node)
@@ -119,11 +121,27 @@ class Context:
             current = self.parent(current)
 
     def scope(self, node: ast.AST) -> ast.AST:
-        """The enclosing function (or lambda), else the module."""
-        for anc in self.ancestors(node):
-            if isinstance(anc, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
-                return anc
-        return self.tree
+        """The enclosing function (or lambda), else the module; memoised along the path walked."""
+        memo, parents = self._scopes, self._parents
+        path: list[ast.AST] = []
+        current, result = node, None
+        while result is None:
+            result = memo.get(id(current))
+            if result is not None:
+                break
+            parent = parents.get(id(current))
+            if parent is None:
+                result = self.tree
+                if current is not self.tree:
+                    path = []  # a node outside the tree (made by a rule): do not memoise its id
+                break
+            path.append(current)
+            if isinstance(parent, _FUNCTIONS):
+                result = parent
+            current = parent
+        for visited in path:
+            memo[id(visited)] = result
+        return result
 
     def enclosing_loops(self, node: ast.AST) -> list[ast.For | ast.While]:
         """Loops around `node` inside its scope, innermost first."""

@@ -84,3 +84,18 @@ def test_complex_intermediate_falls_back_to_mpmath():
     got, _, _ = measure_points(_shadow("np.sqrt(x) + 1", ["x"], fast=True, columns=True), points)
     assert got[0].digits_lost == 15.95  # nan against the exact 1 + 2j: no correct digit
     assert got[1].digits_lost == 0.0 and float(got[1].reference) == 3.0
+
+
+@pytest.mark.parametrize("text", ["math.log(1 + x)", "np.log(1 + x) - np.sqrt(x)", "math.sqrt(x) - 1"])
+def test_columns_split_around_inputs_that_raise(text):
+    # In the assumed box (both signs) some points raise in the float run (math.log of a negative:
+    # ValueError) or trap in MPFR (np.sqrt of a negative: NaN); the column is halved around them,
+    # and every point gets what the per-sample mpmath path gives it.
+    points = sample_points({}, ["x"], {}, 200, 5)
+    plain, _, _ = measure_points(_shadow(text, ["x"], fast=False, columns=False), points)
+    split, _, _ = measure_points(_shadow(text, ["x"], fast=True, columns=True), points)
+    assert [s.note for s in split] == [s.note for s in plain]
+    assert any(s.note for s in plain) and any(s.digits_lost is not None for s in plain)
+    for a, b in zip(split, plain):
+        if b.digits_lost is not None:
+            assert a.digits_lost == pytest.approx(b.digits_lost, abs=1e-6)

@@ -297,9 +297,9 @@ def measure_points(shadow: Shadow, points: Sequence[dict[str, Any]], seconds: fl
     samples: list[Sample] = []
     with quiet(bits):
         if steps == 0:
-            from auditor.numerics.sweep import measure_columns  # sweep builds on this module
+            from auditor.numerics.sweep import measure_split  # sweep builds on this module
 
-            columns = measure_columns(shadow, chosen, bits)
+            columns = measure_split(shadow, chosen, bits)
             if columns is not None:
                 return columns, bits, ""
         for point in chosen:

@@ -14,7 +14,7 @@ from auditor.numerics import metrics as mx
 from auditor.numerics.figures import column_conditions, column_losses
 from auditor.numerics.run import (
     _FACTOR, _FACTOR_FLOAT, _MAKE, _condition_of, _from_float, _needs_recheck, FATAL, Sample, Shadow,
-    finish_sample, flatten,
+    finish_sample, flatten, measure_sample,
 )
 import numpy as np
 from mpmath import libmp
@@ -74,6 +74,25 @@ def _shifted(shadow: Shadow, run: BatchFn, points: Sequence[Point], columns: dic
             if m is not None:
                 out[i].append(flatten(values[i]))
     return out
+
+
+#: Below this many points a column that raised is measured point by point.
+MIN_COLUMN = 16
+
+
+def measure_split(shadow: Shadow, points: Sequence[Point], bits: int) -> list[Sample] | None:
+    """`measure_columns`, halving the column where a run raised (the code's own error at some
+    input, an MPFR trap) until the points that raise are measured one by one; None where the
+    unit has no column form. Each level touches every point at most once."""
+    if _reference_batch(shadow) is None or not points:
+        return None
+    done = measure_columns(shadow, points, bits)
+    if done is not None:
+        return done
+    if len(points) <= MIN_COLUMN:
+        return [measure_sample(shadow, p, bits) for p in points]
+    mid = len(points) // 2
+    return (measure_split(shadow, points[:mid], bits) or []) + (measure_split(shadow, points[mid:], bits) or [])
 
 
 def measure_columns(shadow: Shadow, points: Sequence[Point], bits: int) -> list[Sample] | None:

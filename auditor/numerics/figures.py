@@ -27,11 +27,9 @@ def column_losses(floats: Sequence[Any], refs: Sequence[Any]) -> list[float] | N
     if set(map(type, floats)) != {float} or set(map(type, refs)) != {MPFR}:
         return None
     as_float = np.array(floats)
-    plain = np.isfinite(as_float) & (np.array(list(map(float, refs))) != 0)
-    if plain.all():  # the common case, without a Python call per sample
-        rel = np.abs(np.array([float((f - r) / r) for f, r in zip(floats, refs)]))
-    else:
-        rel = np.array([_relative(f, r) for f, r in zip(floats, refs)])
+    plain = (np.isfinite(as_float) & (np.array(list(map(float, refs))) != 0)).tolist()
+    # The common case inline; zero references and non-finite floats by `_relative`.
+    rel = np.abs(np.array([float((f - r) / r) if ok else _relative(f, r) for f, r, ok in zip(floats, refs, plain)]))
     with np.errstate(divide="ignore"):
         losses = np.clip(mx.DIGITS_FLOAT64 + np.log10(rel), 0.0, mx.DIGITS_FLOAT64)
     out: list[float] = losses.tolist()

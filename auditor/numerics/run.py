@@ -156,8 +156,8 @@ def settle_bits(shadow: Shadow, points: Sequence[dict[str, Any]], limit: int = P
 def _pilot(points: Sequence[dict[str, Any]], vary: Sequence[str]) -> list[dict[str, Any]]:
     chosen = [0]
     for name in vary:
-        sizes = [abs(p[name]) if isinstance(p.get(name), float) else 0.0 for p in points]
-        if sizes:
+        sizes = np.abs(np.array([v if v.__class__ is float else 0.0 for v in (p.get(name) for p in points)]))
+        if sizes.size:
             chosen += [int(np.argmax(sizes)), int(np.argmin(sizes))]
     chosen += list(range(1, min(PILOT, len(points))))
     return [points[i] for i in dict.fromkeys(chosen)]

@@ -105,9 +105,19 @@ class Context:
             return ""
         if last is None or end_col is None:
             return ""
-        if self._ascii:
-            return self.source[self._line_starts[first - 1] + col : self._line_starts[last - 1] + end_col]
-        return ast.get_source_segment(self.source, node) or ""
+        starts = self._line_starts
+        if first > len(starts) or last > len(starts):
+            return ""
+        if not self._ascii:  # ast columns are UTF-8 byte offsets: convert on the two end lines only
+            col = self._char_column(first, col)
+            end_col = self._char_column(last, end_col)
+        return self.source[starts[first - 1] + col : starts[last - 1] + end_col]
+
+    def _char_column(self, line: int, byte_col: int) -> int:
+        starts = self._line_starts or [0]
+        start = starts[line - 1]
+        end = starts[line] if line < len(starts) else len(self.source)
+        return len(self.source[start:end].encode("utf-8")[:byte_col].decode("utf-8", "replace"))
 
     # -- structure -------------------------------------------------------
     def parent(self, node: ast.AST) -> ast.AST | None:

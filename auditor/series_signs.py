@@ -8,7 +8,7 @@ from typing import TypeVar
 
 from auditor import patterns as p
 from auditor.rule import Context
-from auditor.nodes import walk
+from auditor.nodes import children, walk
 
 _NESTED = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)
 Loop = ast.For | ast.While
@@ -47,7 +47,7 @@ def _walk_body(loop: Loop) -> list[ast.AST]:
     while stack:
         node = stack.pop()
         out.append(node)
-        stack.extend(c for c in ast.iter_child_nodes(node) if not isinstance(c, _NESTED))
+        stack.extend(c for c in children(node) if not isinstance(c, _NESTED))
     return out
 
 

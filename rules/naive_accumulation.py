@@ -16,6 +16,7 @@ from dataclasses import dataclass
 
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
+from auditor.nodes import children
 
 #: a `range(k)` or literal sequence at most this long is a short fixed loop
 _SHORT = 64
@@ -40,7 +41,7 @@ def loop_statements(loop: ast.For) -> Iterator[ast.AST]:
     while stack:
         node = stack.pop()
         yield node
-        stack.extend(c for c in ast.iter_child_nodes(node) if not isinstance(c, _NESTED))
+        stack.extend(c for c in children(node) if not isinstance(c, _NESTED))
 
 
 def accumulations(loop: ast.For) -> list[Accumulation]:
@@ -132,7 +133,7 @@ def is_series(ctx: Context, loop: ast.For, term: ast.expr) -> bool:
     """Terms of a series (the series rules' business): a recurrence, a sign factor, a power of the index."""
     if any(rescaled_in_loop(loop, name) for name in p.names_in(term)):
         return True
-    index = p.names_in(loop.target)
+    index = {n.id for n in ast.walk(loop.target) if isinstance(n, ast.Name)}  # stored names: names_in sees loads only
     return any(
         isinstance(n, ast.BinOp) and isinstance(n.op, ast.Pow) and bool(p.names_in(n.right) & index)
         or isinstance(n, ast.BinOp) and isinstance(n.op, ast.Pow) and p.is_number(n.left, -1)
@@ -291,6 +292,8 @@ class NaiveAccumulation(Rule):
                 "        d += c.shape[0] * xp.sum((c - mean) ** 2)\n    return d\n", False),
         Example("import numpy as np\ndef spread(models, x, n):\n    z = np.zeros(n)\n    for m in models:\n"
                 "        z += (m(x) - x) ** 2\n    return z\n", False, note="array accumulator"),
+        Example("def horner_free(c, w, k):\n    res = 0.0\n    for i in range(k):\n        res += c[i] * w ** (k - 1 - i)\n"
+                "    return res\n", False, note="field trial regression: a power of the loop index is a series term"),
         Example("def exp_series(x):\n    s, t = 0.0, 1.0\n    for k in range(1, 200):\n        s += t\n        t *= x / k\n"
                 "    return s\n", False, note="a series: the series rules decide"),
     )

@@ -15,6 +15,7 @@ from collections.abc import Iterator
 
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
+from auditor.nodes import children
 
 _NESTED = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)
 #: names that say "this is a step or a clock" when no value is visible
@@ -27,7 +28,7 @@ def body_nodes(loop: ast.For | ast.While) -> Iterator[ast.AST]:
     while stack:
         node = stack.pop()
         yield node
-        stack.extend(c for c in ast.iter_child_nodes(node) if not isinstance(c, _NESTED))
+        stack.extend(c for c in children(node) if not isinstance(c, _NESTED))
 
 
 def changing_names(loop: ast.For | ast.While) -> set[str]:
@@ -62,6 +63,15 @@ def step_update(node: ast.AST) -> tuple[ast.expr, ast.expr, bool] | None:
         if isinstance(v.op, ast.Add) and ast.unparse(v.right) == ast.unparse(target):
             return target, v.left, False
     return None
+
+
+def integer_start(ctx: Context, loop: ast.For | ast.While, target: ast.expr) -> bool:
+    """True when the value last assigned to `target` before the loop is an integer literal."""
+    if not isinstance(target, ast.Name):
+        return False
+    before = [b for b in ctx.flow(ctx.scope(loop)).of(target.id) if (b.line, b.column) < (loop.lineno, loop.col_offset)]
+    return bool(before) and before[-1].kind == "assign" and before[-1].value is not None \
+        and p.is_integer_literal(before[-1].value)
 
 
 def drifting_step(ctx: Context, target: ast.expr, step: ast.expr) -> bool:
@@ -171,6 +181,9 @@ class StepAccumulation(Rule):
                 note="0.5 is exact in binary"),
         Example("def probe(run, losses):\n    for beta in losses:\n        run(beta)\n        beta -= 1.0e-5\n"
                 "        run(beta)\n", False, note="field trial regression: the loop variable is rebound each pass"),
+        Example("def pages(table, max_lines, n_header, keys):\n    delta_lines = max_lines - n_header\n    i0 = 0\n"
+                "    for key in keys:\n        print(table[i0:i0 + delta_lines])\n        i0 += delta_lines\n", False,
+                note="field trial regression: an integer row index"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -186,6 +199,8 @@ class StepAccumulation(Rule):
             for loop in loops
         ):
             return  # `for x in xs: x -= h`: the loop rebinds x every pass, nothing accumulates
+        if p.constant_value(ctx, step) is None and integer_start(ctx, loops[-1], target):
+            return  # `i0 = 0 ... i0 += delta`: an integer position stepped by an unknown (integer) amount
         if not drifting_step(ctx, target, step) or not read_elsewhere(ctx, node, target):
             return
         loop = loops[0]

@@ -69,6 +69,7 @@ class Context:
         self.tree = tree
         self._parents = parents if parents is not None else link_parents(tree)
         self._scopes: dict[int, ast.AST] = {}
+        self._mentions: dict[str, bool] = {}
         self.path = path
         self.source = source
         self._imports: ImportTable | None = None
@@ -118,6 +119,20 @@ class Context:
         start = starts[line - 1]
         end = starts[line] if line < len(starts) else len(self.source)
         return len(self.source[start:end].encode("utf-8")[:byte_col].decode("utf-8", "replace"))
+
+    def mentions(self, *fragments: str) -> bool:
+        """True when the file's text contains one of `fragments` (memoised).
+
+        A sound pre-filter, never a detector: a rule about `det` cannot fire in a file whose text
+        never spells `det`, whatever the aliases. Detection itself stays on the AST.
+        """
+        known = self._mentions
+        for fragment in fragments:
+            if fragment not in known:
+                known[fragment] = fragment in self.source
+            if known[fragment]:
+                return True
+        return False
 
     # -- structure -------------------------------------------------------
     def parent(self, node: ast.AST) -> ast.AST | None:

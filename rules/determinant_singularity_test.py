@@ -93,6 +93,8 @@ class DeterminantSingularityTest(Rule):
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        if not ctx.mentions("det"):
+            return  # no determinant anywhere in the file (cheap pre-filter; detection is below)
         if isinstance(node, ast.Compare):
             if self._compares_small(node, ctx):
                 yield self._hit(ctx, node, *self._direction(node, ctx))

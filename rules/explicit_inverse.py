@@ -48,6 +48,23 @@ def _variables(ctx: Context, expr: ast.expr) -> set[str]:
     return found
 
 
+def _sandwich(ctx: Context, product: ast.AST, holder: ast.expr) -> bool:
+    """True when the local holding the inverse appears again, transposed, in the same product chain."""
+    if not isinstance(holder, ast.Name):
+        return False
+    chain: list[ast.AST] = [product]
+    parent = ctx.parent(product)
+    while parent is not None and p.product_pair(ctx, parent) is not None:
+        chain.append(parent)
+        parent = ctx.parent(parent)
+    top = chain[-1]
+    for node in ast.walk(top):
+        transposed = p.transposed(ctx, node)
+        if isinstance(transposed, ast.Name) and transposed.id == holder.id:
+            return True
+    return False
+
+
 def _reused(ctx: Context, product: ast.AST, call: ast.Call) -> bool:
     """True when the product sits in a loop or comprehension that the inverse's call is outside of."""
     for anc in ctx.ancestors(product):
@@ -116,6 +133,11 @@ class ExplicitInverse(Rule):
                 "    return y_inv @ np.triu(y)\n", False, note="an inverse tested against its own matrix"),
         Example("import numpy as np\nclass T:\n    def setup(cls):\n        return np.dot(np.linalg.pinv(cls.x), cls.y)\n",
                 True, note="attributes of one object are different matrices"),
+        Example("import numpy as np\ndef cov_vech(d, sigma):\n    d_plus = np.linalg.pinv(d)\n"
+                "    return 2 * (d_plus @ np.kron(sigma, sigma) @ d_plus.T)\n", False,
+                note="field trial regression: a congruence with the pseudo-inverse"),
+        Example("import numpy as np\ndef inv_cov(x):\n    pinv_x = np.linalg.pinv(x)\n    return pinv_x.dot(pinv_x.T)\n",
+                False, note="field trial regression: (X'X)^+ as P P^T, the inverse is the goal"),
         Example("import numpy as np\ndef scatter(c, x):\n    c_inv = np.linalg.pinv(c)\n"
                 "    return sum(np.outer(xi, xi) / np.inner(xi, c_inv.dot(xi)) for xi in x)\n", False,
                 note="one pseudo-inverse applied to every item"),
@@ -139,6 +161,8 @@ class ExplicitInverse(Rule):
                 return  # A @ inv(A): checking the inverse itself, nothing to solve
             if _variables(ctx, rhs) and _variables(ctx, rhs) == _variables(ctx, call.args[0]):
                 return  # inv(A) @ triu(A): a test of the inverse against its own matrix
+            if _sandwich(ctx, node, factors[index]):
+                return  # P @ M @ P.T with P an inverse: a congruence whose factors are the goal
             if kind == "pinv" and _reused(ctx, node, call):
                 return  # pinv(A) applied to every item of a loop: computed once, used many times
             rewrite, imports = solve_text(ctx, kind, call, rhs, left=index == 0)

@@ -87,6 +87,12 @@ def factorial_weight(ctx: Context, expr: ast.AST, idx: set[str], resolve: Resolv
         return 0.0
     left = factorial_weight(ctx, expr.left, idx, resolve, depth)
     right = factorial_weight(ctx, expr.right, idx, resolve, depth)
+    return combine_degrees(expr, left, right)
+
+
+def combine_degrees(expr: ast.BinOp, left: float, right: float) -> float:
+    """Growth degree of `left OP right` from its operands' degrees: products add, quotients
+    subtract, a literal power scales, anything else keeps the larger."""
     if isinstance(expr.op, ast.Mult):
         return left + right
     if isinstance(expr.op, ast.Div):

@@ -6,7 +6,7 @@ from dataclasses import dataclass
 
 from auditor import patterns as p
 from auditor.rule import Context
-from auditor.series_growth import factorial_weight, fixed_point, index_degree, is_integer_term
+from auditor.series_growth import combine_degrees, factorial_weight, fixed_point, index_degree, is_integer_term
 from auditor.series_signs import (
     Accumulation, Loop, _memo, accumulations, recurrence_ratio, alternation, index_names, new_values, parity_branches, sign_of, updates,
     value_before,
@@ -70,14 +70,7 @@ def ratio_degree(ctx: Context, loop: Loop, expr: ast.AST, depth: int = 3) -> flo
     if not isinstance(expr, ast.BinOp):
         return 0.0
     left, right = ratio_degree(ctx, loop, expr.left, depth), ratio_degree(ctx, loop, expr.right, depth)
-    if isinstance(expr.op, ast.Mult):
-        return left + right
-    if isinstance(expr.op, ast.Div):
-        return left - right
-    if isinstance(expr.op, ast.Pow):
-        n = p.literal_number(expr.right)
-        return left * n if isinstance(n, (int, float)) else 0.0
-    return max(left, right)
+    return combine_degrees(expr, left, right)
 
 
 def growth(ctx: Context, loop: Loop, acc: Accumulation) -> Growth | None:

@@ -80,7 +80,7 @@ def plan_probe(names: Sequence[str], var: Sequence[str], at: dict[str, float], s
     if unknown:
         raise ProbeError(f"the expression has no variable {', '.join(unknown)}")
     roles = matrix_roles([node], names)
-    linear = roles.matrices | roles.vectors
+    linear = roles.matrices | roles.vectors if roles else frozenset()  # vectors only beside matrices
     arrays = array_names([node], names) - linear
     ranges = {n: Range(r.lo, r.hi, False) for n, r in ranges.items() if n not in at and n not in linear}
     assumed = [n for n in names if n not in ranges and n not in at and n not in linear]

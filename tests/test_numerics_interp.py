@@ -138,3 +138,10 @@ def test_generator_sum_and_scipy_special():
 def test_unknown_things_are_named(text, named):
     with pytest.raises(NotEvaluable, match=named.replace(".", r"\.")):
         compile_expr(text, ["x"])
+
+
+def test_star_import_shadows_the_builtin():
+    # Python semantics: `from numpy import *` binds sum to numpy.sum, which accepts a scalar.
+    fn = compile_expr("sum(x) + 1.0", ["x"], prelude="from numpy import *\n")
+    assert fn(x=np.float64(2.5)) == np.sum(np.float64(2.5)) + 1.0
+    assert compile_expr("sum(v)", ["v"])(v=[0.5, 0.25]) == 0.75  # no import: the builtin

@@ -125,6 +125,7 @@ def test_sampled_matrices_have_the_condition_numbers_asked_for():
     ("inv(X.T.dot(X)).dot(X.T).dot(y)", ["X", "y"], set(), {"X"}, {"y"}),
     ("P @ H.T @ np.linalg.inv(S)", ["P", "H", "S"], {"P", "H", "S"}, set(), set()),
     ("np.dot(w, x) - c", ["w", "x", "c"], set(), set(), set()),  # a dot product of vectors stays 1-D
+    ("np.linalg.inv(np.transpose(X) @ X) @ (np.transpose(X) @ h)", ["X", "h"], set(), {"X"}, {"h"}),
 ])
 def test_matrix_roles(text, names, square, tall, vectors):
     roles = matrix_roles([ast.parse(text, mode="eval")], names)

@@ -28,6 +28,13 @@ class CallCompiler(ExprCompiler):
                 raise NotEvaluable(f"calls the local value {name}")
             if name in self.module.functions:
                 return self._user_function(name)
+            bound = self.module.imports.qualname(func)
+            if bound is not None and is_builtin(name):
+                # an import (`from numpy import *` binds sum) shadows the builtin, as in Python
+                found = self.backend.function(bound)
+                if found is None:
+                    raise NotEvaluable(f"calls {name} ({bound})")
+                return found  # type: ignore[no-any-return]
             builtin = self.backend.function(name) if is_builtin(name) else None
             if builtin is not None:
                 return builtin  # type: ignore[no-any-return]

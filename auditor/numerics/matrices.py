@@ -49,7 +49,12 @@ def _name(node: ast.AST) -> str | None:
 
 
 def _transposed(node: ast.AST) -> str | None:
-    return _name(node.value) if isinstance(node, ast.Attribute) and node.attr == "T" else None
+    """A in `A.T` or `np.transpose(A)`."""
+    if isinstance(node, ast.Attribute) and node.attr == "T":
+        return _name(node.value)
+    if isinstance(node, ast.Call) and _callee(node) == "transpose" and len(node.args) == 1:
+        return _name(node.args[0])
+    return None
 
 
 def _products(root: ast.AST) -> list[tuple[ast.expr, ast.expr]]:
@@ -71,7 +76,7 @@ def _linear_algebra(root: ast.AST) -> bool:
     for node in ast.walk(root):
         if isinstance(node, ast.BinOp) and isinstance(node.op, ast.MatMult):
             return True
-        if isinstance(node, ast.Attribute) and node.attr == "T":
+        if _transposed(node) is not None:
             return True
         if isinstance(node, ast.Call) and _callee(node) in _MATRIX_FIRST - {"trace"}:
             return True

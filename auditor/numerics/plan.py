@@ -150,7 +150,7 @@ def plan_inputs(
     """Points for every input name, and the reason that says where they came from: recorded
     values, the domain, call-site literals, defaults and annotations, else the assumed box."""
     roles = matrix_roles([function, expr], names)
-    linear = roles.matrices | roles.vectors
+    linear = roles.matrices | roles.vectors if roles else frozenset()  # vectors only beside matrices
     d = _Draft([n for n in names if n not in _SELF and n not in linear], integer_names(function, expr),
                {n: None for n in names if n in _SELF})
     if recorded and all(n in p for p in recorded for n in d.todo):

@@ -160,7 +160,7 @@ def render_text(result: ProbeResult) -> str:
     m = result.measurement
     out = [f"expression: {result.expression}", f"verdict:    {m.verdict.value}"]
     if m.verdict is not Verdict.NOT_MEASURED:
-        where = ", ".join(f"{k}={v:.17g}" if isinstance(v, float) else f"{k}={v}" for k, v in m.worst_inputs.items())
+        where = ", ".join(f"{k}={v:.17g}" if isinstance(v, float) else f"{k}={v}" for k, v in m.worst_inputs.items()) or "an array input"
         cond = "n/a" if m.condition_log10_max is None else f"{m.condition_log10_max:.2f}"
         out += [
             f"samples:    {m.samples} (reference at {result.bits} bits)",

@@ -148,7 +148,9 @@ def settle_bits(shadow: Shadow, points: Sequence[dict[str, Any]], limit: int = P
     for point in _pilot(points, shadow.vary)[:limit]:
         try:
             needed = max(needed, converge(lambda b: run_ref(shadow, point, b)).bits)
-        except (NotConverged, ArithmeticError, ValueError, TypeError, IndexError):
+        except FATAL:
+            raise
+        except Exception:
             pass  # this sample is judged again (and excluded if need be) in the main pass
     return needed + MARGIN_BITS
 

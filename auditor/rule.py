@@ -120,19 +120,21 @@ class Context:
         end = starts[line] if line < len(starts) else len(self.source)
         return len(self.source[start:end].encode("utf-8")[:byte_col].decode("utf-8", "replace"))
 
-    def mentions(self, *fragments: str) -> bool:
-        """True when the file's text contains one of `fragments` (memoised).
+    def mentions(self, *words: str) -> bool:
+        """True when the file's text contains one of `words` (as whole words when they are
+        identifiers, e.g. `det` but not `determine`), memoised per file.
 
         A sound pre-filter, never a detector: a rule about `det` cannot fire in a file whose text
         never spells `det`, whatever the aliases. Detection itself stays on the AST.
         """
+        return any(self.matches(rf"\b{re.escape(w)}\b" if w.isidentifier() else re.escape(w)) for w in words)
+
+    def matches(self, pattern: str) -> bool:
+        """True when the regular expression `pattern` occurs in the file's text (memoised)."""
         known = self._mentions
-        for fragment in fragments:
-            if fragment not in known:
-                known[fragment] = fragment in self.source
-            if known[fragment]:
-                return True
-        return False
+        if pattern not in known:
+            known[pattern] = re.search(pattern, self.source) is not None
+        return known[pattern]
 
     # -- structure -------------------------------------------------------
     def parent(self, node: ast.AST) -> ast.AST | None:

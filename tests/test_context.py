@@ -36,3 +36,11 @@ def test_parents_and_scopes():
     assert ctx.parent(inner) is g.body[0] and ctx.parent(tree) is None
     made = ast.Name("q", ast.Load())  # a node a rule builds is outside the tree
     assert ctx.scope(made) is tree and ctx.parent(made) is None
+
+
+def test_text_prefilters():
+    source = "import numpy as np\n# determine the deterministic part\nq = np.linalg.slogdet(a)\nr = x ** k\n"
+    ctx = Context(ast.parse(source), "t.py", source)
+    assert not ctx.mentions("det")  # whole words only: determine, slogdet are not det
+    assert ctx.mentions("det", "slogdet") and ctx.mentions("**")
+    assert ctx.matches(r"\*\*") and not ctx.matches(r"%\s*2\b")

@@ -32,9 +32,10 @@ def package_dir(name: str) -> Path:
     return Path(next(iter(spec.submodule_search_locations)))
 
 
-def bare_parse(files: list[Path]) -> tuple[float, int]:
-    """Seconds to read and parse every file, and the number of lines."""
+def bare_parse(files: list[Path]) -> tuple[float, float, int]:
+    """Wall and CPU seconds to read and parse every file, and the number of lines."""
     lines = 0
+    cpu = time.process_time()
     start = time.perf_counter()
     for path in files:
         data = path.read_bytes()
@@ -43,24 +44,31 @@ def bare_parse(files: list[Path]) -> tuple[float, int]:
             ast.parse(data, filename=str(path))
         except (SyntaxError, ValueError, RecursionError):
             pass
-    return time.perf_counter() - start, lines
+    return time.perf_counter() - start, time.process_time() - cpu, lines
 
 
-def auditor_scan(folders: list[Path]) -> tuple[float, dict, int]:
-    """Seconds, the JSON report, and the child's peak RSS in KiB."""
+def _child_cpu() -> float:
+    usage = resource.getrusage(resource.RUSAGE_CHILDREN)
+    return usage.ru_utime + usage.ru_stime
+
+
+def auditor_scan(folders: list[Path]) -> tuple[float, float, dict, int]:
+    """Wall and CPU seconds, the JSON report, and the child's peak RSS in KiB."""
     with tempfile.TemporaryDirectory() as tmp:
         out = Path(tmp) / "report.json"
         cmd = [sys.executable, "-m", "auditor", "scan", "--jobs", "1", "--format", "json",
                "--fail-on", "never", "--output", str(out), *map(str, folders)]
         env = {**os.environ, "PYTHONPATH": str(ROOT)}
+        cpu = _child_cpu()
         start = time.perf_counter()
         done = subprocess.run(cmd, env=env, cwd=tmp, capture_output=True, text=True)
         seconds = time.perf_counter() - start
+        cpu = _child_cpu() - cpu
         if done.returncode not in (0, 1):
             raise SystemExit(f"scan failed ({done.returncode}): {done.stderr}")
         report = json.loads(out.read_text())
     peak_kib = resource.getrusage(resource.RUSAGE_CHILDREN).ru_maxrss
-    return seconds, report, peak_kib
+    return seconds, cpu, report, peak_kib
 
 
 def per_rule_times(files: list[Path]) -> None:
@@ -103,12 +111,13 @@ def main(argv: list[str]) -> None:
     # warm the page cache so neither side pays for the first read
     for p in files:
         p.read_bytes()
-    parse_s, lines = bare_parse(files)
-    scan_s, report, peak_kib = auditor_scan(folders)
+    parse_s, parse_cpu, lines = bare_parse(files)
+    scan_s, scan_cpu, report, peak_kib = auditor_scan(folders)
     print(f"files: {len(files)}   lines: {lines}")
-    print(f"bare ast.parse:          {parse_s:8.2f} s  ({lines / parse_s:,.0f} lines/s)")
-    print(f"auditor scan --jobs 1:   {scan_s:8.2f} s  ({lines / scan_s:,.0f} lines/s)")
-    print(f"ratio scan / parse:      {scan_s / parse_s:8.2f}   (target <= 2.5)")
+    print(f"bare ast.parse:          {parse_s:8.2f} s wall {parse_cpu:8.2f} s CPU  ({lines / parse_cpu:,.0f} lines/CPU-s)")
+    print(f"auditor scan --jobs 1:   {scan_s:8.2f} s wall {scan_cpu:8.2f} s CPU  ({lines / scan_cpu:,.0f} lines/CPU-s)")
+    print(f"ratio scan / parse:      {scan_s / parse_s:8.2f} wall {scan_cpu / parse_cpu:8.2f} CPU   (target <= 2.5;"
+          " CPU time is the steadier figure on a shared machine; the scan includes interpreter start-up)")
     print(f"peak RSS of the scan:    {peak_kib / 1024:8.0f} MiB (target < 1024)")
     print(f"errors: {len(report['errors'])}   findings: {len(report['findings'])}")
     per_rule = Counter(f["rule"] for f in report["findings"])

@@ -20,7 +20,8 @@ from auditor.numerics.plan import InputPlan, plan_inputs
 from auditor.numerics.run import Sample, Shadow, measure_points, trace_terms
 from auditor.numerics.summary import not_measured, summarize, worst_of
 from auditor.numerics.trace import series_figures
-from auditor.numerics.unit import Unit, build_unit, compile_shadow, locate, source_module
+from auditor.numerics.series_verify import verify_series
+from auditor.numerics.unit import SERIES_RULES, Unit, build_unit, compile_shadow, locate, source_module
 from auditor.numerics.verify import remeasure, verify_rewrite
 from auditor.rule import Context
 from auditor.scan import walk
@@ -169,6 +170,24 @@ def _remeasure_text(finding: Finding, new_text: str, span: Span, before: Sequenc
     return _Measured(summarize(samples, "inputs: the original's samples"), tuple(samples), None)
 
 
+def _series_text(finding: Finding, source_text: str, new_text: str, span: Span,
+                 before: Sequence[Sample]) -> tuple[_Measured, bool, str]:
+    """A series rewrite measured against its own reference and checked by the series criterion
+    (a truncated series and its closed form, or a smallest-term stop, differ by design)."""
+    original = _shadow_at(finding, source_text, finding.span)
+    found = _shadow_at(finding, new_text, span, inside=True)
+    if isinstance(original, str) or isinstance(found, str):
+        why = found if isinstance(found, str) else str(original)
+        return _Measured(not_measured(why), (), None), False, why
+    try:
+        samples, ok, note = verify_series(finding.rule, original[1], found[1], before)
+    except NotEvaluable as exc:
+        return _Measured(not_measured(f"not evaluated: {exc}"), (), None), False, f"not evaluated: {exc}"
+    except RecursionError:
+        return _Measured(not_measured("not evaluated: nested too deeply"), (), None), False, "nested too deeply"
+    return _Measured(summarize(samples, "inputs: the original's samples"), tuple(samples), None), ok, note
+
+
 def splice_text(source_text: str, span: Span, replacement: str, imports: Sequence[str] = ()) -> str | None:
     """The source with `replacement` in place of `span`; needed imports appended at the end
     (imports are resolved file-wide, and appending keeps every line number)."""
@@ -203,8 +222,12 @@ def measure_finding(finding: Finding, source_text: str, config: Config, replacem
     new_text = splice_text(source_text, finding.span, replacement, imports)
     if new_text is None:
         return FindingMeasurement(before.measurement, before.samples, note="the span does not fit the source")
-    after = _remeasure_text(finding, new_text, _replaced_span(finding.span, replacement), before.samples)
-    ok, note = verify_rewrite(before.samples, after.samples)
+    span = _replaced_span(finding.span, replacement)
+    if finding.rule in SERIES_RULES:
+        after, ok, note = _series_text(finding, source_text, new_text, span, before.samples)
+    else:
+        after = _remeasure_text(finding, new_text, span, before.samples)
+        ok, note = verify_rewrite(before.samples, after.samples)
     if after.measurement.verdict is Verdict.NOT_MEASURED:
         ok, note = False, "rewrite not measured: " + after.measurement.reason
     return FindingMeasurement(before.measurement, before.samples, after.measurement, after.samples, ok, note)

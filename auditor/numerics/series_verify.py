@@ -36,11 +36,11 @@ def verify_series(rule: str, original: Shadow, rewrite: Shadow, before: Sequence
     check = _alternating if rule == ALTERNATING else _divergent
     verdicts = [check(original, rewrite, before[i], after[i]) for i in picked]
     failed = next((why for ok, why in verdicts if ok is False), None)
+    if failed is not None:
+        return after, False, f"{_criterion(rule)}; {failed}"
     used = [i for i, (ok, _) in zip(picked, verdicts) if ok]
     skipped = len(picked) - len(used)
     where = f"{len(used)} of {len(picked)} traced samples (of {len(before)})" + (f", {skipped} excluded: {_first_note(verdicts)}" if skipped else "")
-    if failed is not None:
-        return after, False, failed
     if len(used) < MIN_CHECKED:
         return after, False, f"too few samples where the series criterion applies: {where}"
     # Every sample has the rewrite's own reference already: the accuracy criterion uses them all.

@@ -49,7 +49,10 @@ def _close(key: str, old, new) -> bool:
     if key in _DIGIT_KEYS:
         return abs(float(old) - float(new)) <= DIGITS
     if key in _RELATIVE_KEYS:
-        a, b = float(old), float(new)
+        try:
+            a, b = float(old), float(new)
+        except ValueError:  # a non-numeric result (a boolean test) is compared as text
+            return old == new
         return a == b or (math.isfinite(a) and abs(a - b) <= RELATIVE * max(abs(a), abs(b)))
     return old == new
 

@@ -4,8 +4,11 @@ severity from the verdict. Never imports or executes the scanned code (see audit
 from __future__ import annotations
 
 import ast
+import contextlib
+import signal
+import threading
 import time
-from collections.abc import Mapping, Sequence
+from collections.abc import Iterator, Mapping, Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
 from typing import Any
@@ -267,6 +270,36 @@ def _with_points(m: Measurement, samples: Sequence[Sample]) -> Measurement:
     return replace(m, points=pts)
 
 
+#: Wall-clock limit for measuring one finding. The per-unit budget (steps and time, checked
+#: between operations) stops runaway code; this net catches a single library call that runs
+#: away on its own (an mpmath function climbing to ever higher precision inside one call).
+FINDING_SECONDS = 20.0
+
+
+class _OutOfTime(BaseException):
+    """Raised by the alarm; a BaseException so that no `except Exception` in the pass hides it."""
+
+
+@contextlib.contextmanager
+def _hard_deadline(seconds: float) -> Iterator[None]:
+    """Interrupt the block after `seconds` (main thread on POSIX only; elsewhere a no-op)."""
+    usable = hasattr(signal, "setitimer") and threading.current_thread() is threading.main_thread()
+    if not usable:
+        yield
+        return
+
+    def _alarm(signum: int, frame: object) -> None:
+        raise _OutOfTime()
+
+    previous = signal.signal(signal.SIGALRM, _alarm)
+    signal.setitimer(signal.ITIMER_REAL, seconds)
+    try:
+        yield
+    finally:
+        signal.setitimer(signal.ITIMER_REAL, 0)
+        signal.signal(signal.SIGALRM, previous)
+
+
 def measure_one(finding: Finding, source_text: str | None, project: Project) -> Finding:
     """A finding with its measurement, verified rewrite and adjusted severity (never raises)."""
     if source_text is None:
@@ -275,8 +308,12 @@ def measure_one(finding: Finding, source_text: str | None, project: Project) -> 
         rewrite = finding.rewrite
         if rewrite is not None and rewrite.advice:
             rewrite = None  # advice changes what the code computes: there is nothing to verify it against
-        fm = measure_finding(finding, source_text, project.config, rewrite.text if rewrite else None,
-                             project=project, imports=rewrite.imports if rewrite else ())
+        with _hard_deadline(FINDING_SECONDS):
+            fm = measure_finding(finding, source_text, project.config, rewrite.text if rewrite else None,
+                                 project=project, imports=rewrite.imports if rewrite else ())
+    except _OutOfTime:
+        return finding.with_(measurement=not_measured(
+            f"measuring took longer than {FINDING_SECONDS:.0f} s (a single numeric call did not return); stopped"))
     except Exception as exc:  # a bug in the dynamic pass must not stop the run: report it as data
         return finding.with_(measurement=not_measured(f"internal error in the dynamic pass: {type(exc).__name__}: {exc}"))
     m = _with_points(fm.measurement, fm.samples)

@@ -71,3 +71,25 @@ def test_advice_rewrites_are_never_verified(tmp_path, capsys):
     assert main(["fix", "--write", str(path)]) in (0, 1)
     capsys.readouterr()
     assert "det(A) == 0" in path.read_text()
+
+
+def test_a_call_that_never_returns_is_stopped(tmp_path, capsys, monkeypatch):
+    # The per-unit budget is checked between operations; a single numeric call that runs away on
+    # its own (seen with an mpmath function climbing in precision) is stopped by the wall clock.
+    import time
+
+    import auditor.measure as measure
+
+    def runaway(*args, **kwargs):
+        while True:
+            time.sleep(0.01)
+
+    monkeypatch.setattr(measure, "FINDING_SECONDS", 0.5)
+    monkeypatch.setattr(measure, "measure_finding", runaway)
+    path = tmp_path / "m.py"
+    path.write_text("import math\n\ndef f(x):\n    return math.exp(x) - 1\n")
+    started = time.monotonic()
+    _, data = run_json(capsys, "measure", "--format", "json", str(path))
+    assert time.monotonic() - started < 10
+    m = data["findings"][0]["measurement"]
+    assert m["verdict"] == "not-measured" and "longer than" in m["reason"]

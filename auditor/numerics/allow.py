@@ -22,15 +22,37 @@ from auditor.numerics.budget import MAX_FACTORIAL, MAX_LENGTH, BudgetExceeded, c
 Pair = tuple[Callable[..., Any], Callable[..., Any]]
 
 
+#: Largest binary exponent an mpmath argument may carry (|x| < 2**(2**20), about 1e315652).
+#: Far beyond any float's range, so the verdict cannot depend on it, while elementary
+#: functions of larger arguments can run for minutes and take gigabytes inside one call.
+MAX_EXPONENT_BITS = 1 << 20
+
+
+def _out_of_range(value: Any) -> bool:
+    """True for an mpmath number whose binary exponent exceeds MAX_EXPONENT_BITS."""
+    parts = (value._mpf_,) if hasattr(value, "_mpf_") else getattr(value, "_mpc_", ())
+    for _sign, man, exp, bc in parts:
+        if man and abs(exp + bc) > MAX_EXPONENT_BITS:
+            return True
+    return False
+
+
 def _elementwise(fn: Callable[..., Any], nargs: int = 1) -> Callable[..., Any]:
     """Apply an mpmath function to scalars, or element by element to arrays."""
-    vec = np.frompyfunc(fn, nargs, 1)
+
+    def guarded(*args: Any) -> Any:
+        for a in args:
+            if _out_of_range(a):
+                raise OverflowError(f"an argument of {getattr(fn, '__name__', 'a function')} is beyond 2**(2**20) in magnitude")
+        return fn(*args)
+
+    vec = np.frompyfunc(guarded, nargs, 1)
 
     def apply(*args: Any) -> Any:
         for a in args:
             if a.__class__ is np.ndarray:
                 return vec(*args)
-        return fn(*args)
+        return guarded(*args)
 
     return apply
 

@@ -43,6 +43,13 @@ class Example:
     note: str = ""
 
 
+def text_mentions(source: str, words: tuple[str, ...]) -> bool:
+    """True when `source` contains one of `words` (identifiers as whole words)."""
+    return any(
+        re.search(rf"\b{re.escape(w)}\b" if w.isidentifier() else re.escape(w), source) is not None for w in words
+    )
+
+
 class Rule:
     """Base of every rule in `rules/`; subclasses set the class attributes and `check`."""
 
@@ -57,6 +64,9 @@ class Rule:
     rewrite_template: ClassVar[str] = ""
     examples: ClassVar[tuple[Example, ...]]
     rationale: ClassVar[str] = ""  #: filled by the catalog from the module docstring
+    #: words one of which a file must spell for the rule to run there (e.g. ("det",)): a sound
+    #: pre-filter that spares the per-node work in files the rule cannot concern; () runs always
+    requires: ClassVar[tuple[str, ...]] = ()
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
         raise NotImplementedError
@@ -69,7 +79,7 @@ class Context:
         self.tree = tree
         self._parents = parents if parents is not None else link_parents(tree)
         self._scopes: dict[int, ast.AST] = {}
-        self._mentions: dict[str, bool] = {}
+        self._mentions: dict[Any, bool] = {}
         self.path = path
         self.source = source
         self._imports: ImportTable | None = None
@@ -127,7 +137,11 @@ class Context:
         A sound pre-filter, never a detector: a rule about `det` cannot fire in a file whose text
         never spells `det`, whatever the aliases. Detection itself stays on the AST.
         """
-        return any(self.matches(rf"\b{re.escape(w)}\b" if w.isidentifier() else re.escape(w)) for w in words)
+        known = self._mentions
+        found = known.get(words)
+        if found is None:
+            found = known[words] = text_mentions(self.source, words)
+        return found
 
     def matches(self, pattern: str) -> bool:
         """True when the regular expression `pattern` occurs in the file's text (memoised)."""

@@ -16,7 +16,7 @@ from auditor.config import Config
 from auditor.directives import parse_directives
 from auditor.model import FileError, Finding, Report, Rewrite, Span, Stats
 from auditor.nodes import CHILD_FIELDS
-from auditor.rule import Context, Hit, Rule
+from auditor.rule import Context, Hit, Rule, text_mentions
 from auditor.cache import ResultCache, default_folder, entry_key
 from auditor.sources import SourceRef, SourceText, decode, discover, read_bytes
 
@@ -182,8 +182,9 @@ def _scan_tree(text: str, path: str, rules: Sequence[Rule], n_lines: int) -> Fil
     findings: list[Finding] = []
     errors: list[FileError] = []
     parents: dict[int, ast.AST] = {}
+    active = [r for r in rules if not r.requires or text_mentions(text, r.requires)]
     try:
-        todo = walk(tree, _dispatch_table(rules), parents)
+        todo = walk(tree, _dispatch_table(active), parents)
         ctx = Context(tree, path, text, parents)
     except RecursionError:
         return FileResult(path, (), (FileError(path, "too deeply nested to analyse"),), n_lines)

@@ -32,6 +32,7 @@ class AtanOfRatio(Rule):
     severity = Severity.WARNING
     summary = "atan(y / x): wrong quadrant for x < 0 and a division by zero at x = 0; use atan2(y, x)"
     node_types = (ast.Call,)
+    requires = ("atan", "arctan")  # a file that never spells these cannot hold this pattern
     method = (
         "the two-argument arctangent atan2 (C99 and IEEE 754-2008 atan2; ISO C 7.12.4.4), common practice for "
         "polar angles and phases"

@@ -76,6 +76,7 @@ class DeterminantSingularityTest(Rule):
     severity = Severity.WARNING
     summary = "det(A) == 0 or a small-det threshold: the determinant does not measure nearness to singularity"
     node_types = (ast.Compare, ast.Call)
+    requires = ("det",)  # a file that never spells these cannot hold this pattern
     method = (
         "Condition number and numerical rank from the SVD: G. H. Golub and C. F. Van Loan, Matrix Computations, "
         "4th ed., 2013, sections 2.4 and 5.4; N. J. Higham, Accuracy and Stability of Numerical Algorithms, "

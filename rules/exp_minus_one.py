@@ -43,6 +43,7 @@ class ExpMinusOne(Rule):
     severity = Severity.WARNING
     summary = "exp(x) - 1 or 1 - exp(x): cancels for small |x|; use expm1"
     node_types = (ast.BinOp,)
+    requires = ("exp",)  # a file that never spells these cannot hold this pattern
     method = (
         "expm1 as provided by C99/IEEE 754-2008 libm; error analysis of exp(x) - 1 in N. J. Higham, "
         "Accuracy and Stability of Numerical Algorithms, 2nd ed., SIAM 2002, section 1.14.1 (from memory)"

@@ -111,6 +111,7 @@ class ExplicitInverse(Rule):
     severity = Severity.WARNING
     summary = "inv(A) @ b: slower and less accurate than solving A x = b"
     node_types = (ast.BinOp, ast.Call)
+    requires = ("inv", "pinv")  # a file that never spells these cannot hold this pattern
     method = (
         "LU solve (Gaussian elimination with partial pivoting) instead of the inverse: N. J. Higham, "
         "Accuracy and Stability of Numerical Algorithms, 2nd ed., SIAM 2002, chapter 14 (from memory)"

@@ -51,6 +51,7 @@ class LogOfOnePlus(Rule):
     severity = Severity.WARNING
     summary = "log(1 + x) or log(1 - x): rounds away small x; use log1p"
     node_types = (ast.Call,)
+    requires = ("log",)  # a file that never spells these cannot hold this pattern
     method = (
         "log1p as provided by C99/IEEE 754-2008 libm; D. Goldberg, What Every Computer Scientist "
         "Should Know About Floating-Point Arithmetic, ACM Computing Surveys 23(1), 1991, on ln(1+x) (from memory)"

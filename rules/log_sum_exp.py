@@ -94,6 +94,7 @@ class LogSumExp(Rule):
     severity = Severity.WARNING
     summary = "log(sum(exp(v))) or exp(v)/sum(exp(v)) overflows above 709 and underflows below -745"
     node_types = (ast.Call, ast.BinOp)
+    requires = ("exp",)  # a file that never spells these cannot hold this pattern
     method = (
         "The log-sum-exp trick (shift by the maximum): N. J. Higham et al., Accurately computing the log-sum-exp "
         "and softmax functions, IMA J. Numer. Anal. 41(4), 2021 (from memory)"

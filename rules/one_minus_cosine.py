@@ -31,6 +31,7 @@ class OneMinusCosine(Rule):
     severity = Severity.WARNING
     summary = "1 - cos(x) or cos(x) - 1: cancels for small |x|; use 2*sin(x/2)**2"
     node_types = (ast.BinOp, ast.AugAssign)
+    requires = ("cos",)  # a file that never spells these cannot hold this pattern
     method = (
         "half-angle identity 1 - cos x = 2 sin^2(x/2), the standard remedy in D. Goldberg, What Every "
         "Computer Scientist Should Know About Floating-Point Arithmetic, ACM Computing Surveys 23(1), 1991, "

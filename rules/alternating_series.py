@@ -120,7 +120,7 @@ class AlternatingSeries(Rule):
             yield Hit(loop, _twin_message(ctx, twin))
 
     def _vectorised(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
-        if not ctx.matches(r"\*\*|pow|%\s*2\b|&\s*1\b"):
+        if not (ctx.mentions("**", "pow") or ctx.matches(r"%\s*2\b|&\s*1\b")):
             return  # no power and no parity test anywhere in the file: no sign can alternate (pre-filter)
         found = summed_term(ctx, node)
         if found is None:

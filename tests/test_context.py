@@ -44,3 +44,14 @@ def test_text_prefilters():
     assert not ctx.mentions("det")  # whole words only: determine, slogdet are not det
     assert ctx.mentions("det", "slogdet") and ctx.mentions("**")
     assert ctx.matches(r"\*\*") and not ctx.matches(r"%\s*2\b")
+
+
+@settings(max_examples=200, deadline=None)
+@given(st.text(alphabet="detx_ (.)é1\n", max_size=40))
+def test_whole_word_search_agrees_with_the_regex_word_boundary(text):
+    # Python's re \b (Unicode word characters) is the reference for "a whole word"
+    import re
+
+    from auditor.rule import text_mentions
+
+    assert text_mentions(text, ("det",)) == (re.search(r"\bdet\b", text) is not None)

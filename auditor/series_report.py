@@ -10,7 +10,7 @@ from auditor.rule import Context
 from auditor.series_growth import factorial_weight, index_degree
 from auditor.series_model import Recognised
 from auditor.series_rewrite import library_call, module_for, read_after
-from auditor.series_signs import Accumulation, Loop, contains_sign_power, index_names, parity_sign
+from auditor.series_signs import Accumulation, Loop, index_names, is_sign_power, parity_sign
 from auditor.series_terms import in_loop_resolver, ratio_degree
 from auditor.nodes import walk
 
@@ -141,13 +141,36 @@ def _names_through(ctx: Context, expr: ast.AST, depth: int) -> list[ast.Name]:
     return out
 
 
+def _index_sign_power(ctx: Context, term: ast.AST, idx: set[str]) -> bool:
+    """A sign power that alternates over the summed index: `(-1)**k` always counts; `(-x)**e`
+    only when its exponent reads an index name (`(-log u)**theta` with a shape parameter is a
+    plain power, not a sign that flips from term to term)."""
+    for n in walk(term):
+        if not is_sign_power(ctx, n):
+            continue
+        base, exponent = (n.left, n.right) if isinstance(n, ast.BinOp) else (n.args[0], n.args[1])  # type: ignore[attr-defined]
+        if p.is_number(base, -1) or p.names_in(exponent) & idx:
+            return True
+    return False
+
+
 def vector_alternates(ctx: Context, term: ast.AST, idx: set[str], depth: int = 3) -> bool:
     """A sign power or parity sign in the term, directly or in the locals it reads."""
-    if contains_sign_power(ctx, term) or parity_sign(ctx, None, term, idx or p.names_in(term)):
+    if isinstance(term, ast.Compare):
+        return False  # a summed comparison counts booleans: no series
+    if _index_sign_power(ctx, term, idx) or parity_sign(ctx, None, term, idx or p.names_in(term)):
         return True
     for n in walk(term):
         if isinstance(n, ast.Name) and hasattr(n, "lineno") and depth > 0:
             origin = ctx.origin(n)
-            if origin is not n and vector_alternates(ctx, origin, idx, depth - 1):
+            if origin is n or _opaque(ctx, origin):
+                continue
+            if vector_alternates(ctx, origin, idx, depth - 1):
                 return True
     return False
+
+
+def _opaque(ctx: Context, value: ast.AST) -> bool:
+    """A value made by a call to something other than a numeric-library function (a model, a
+    method): its signs are not the ones written in its arguments, so they are not followed."""
+    return isinstance(value, ast.Call) and ctx.family(value) is None

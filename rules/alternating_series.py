@@ -92,6 +92,17 @@ class AlternatingSeries(Rule):
             "def horner(c, x):\n    s = 0.0\n    for a in reversed(c):\n        s = s * (-x) + a\n    return s\n",
             False,
         ),
+        Example(
+            "import numpy as np\ndef copula_gen(u, theta):\n    return np.sum((-np.log(u)) ** theta)\n",
+            False,
+            note="a power with a shape-parameter exponent, not a sign flipping over the summed index (field trial)",
+        ),
+        Example(
+            "import numpy as np\ndef selected(model, x, n):\n    coeff = (-1.0) ** np.arange(n)\n"
+            "    fit = model.fit(x @ coeff)\n    return np.sum(fit.stats >= 0.5)\n",
+            False,
+            note="a summed comparison counts booleans; signs are not followed through a model's call (field trial)",
+        ),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:

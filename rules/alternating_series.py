@@ -99,7 +99,7 @@ class AlternatingSeries(Rule):
         ),
         Example(
             "import numpy as np\ndef selected(model, x, n):\n    coeff = (-1.0) ** np.arange(n)\n"
-            "    fit = model.fit(x @ coeff)\n    return np.sum(fit.stats >= 0.5)\n",
+            "    fit = model.fit(x, coeff)\n    return np.sum(fit.stats >= 0.5)\n",
             False,
             note="a summed comparison counts booleans; signs are not followed through a model's call (field trial)",
         ),

@@ -30,12 +30,28 @@ def squared_value(ctx: Context, side: ast.expr) -> tuple[ast.expr, bool] | None:
     return None
 
 
+def _plus_root_of_square(ctx: Context, node: ast.BinOp) -> tuple[ast.expr, ast.expr] | None:
+    """(x, c) for `x + sqrt(x*x + c)` or `sqrt(x**2 + c) + x` (through locals), else None."""
+    for x, root in ((node.left, node.right), (node.right, node.left)):
+        radicand = sqrt_argument(ctx, root)
+        if radicand is None:
+            continue
+        radicand = ctx.origin(radicand)
+        if not (isinstance(radicand, ast.BinOp) and isinstance(radicand.op, ast.Add)):
+            continue
+        for square, c in ((radicand.left, radicand.right), (radicand.right, radicand.left)):
+            base = p.is_square(square)
+            if base is not None and p.same_expr(base, x) and reads_variables(ctx, x):
+                return x, c
+    return None
+
+
 class SqrtDifference(Rule):
     id = "sqrt-difference"
     title = "difference of nearly equal square roots"
     severity = Severity.WARNING
     summary = "sqrt(a) - sqrt(b) with nearly equal a and b: use (a - b) / (sqrt(a) + sqrt(b))"
-    node_types = (ast.BinOp,)
+    node_types = (ast.BinOp, ast.Call)
     method = (
         "rationalising by the conjugate, sqrt(a) - sqrt(b) = (a - b)/(sqrt(a) + sqrt(b)); D. Goldberg, What Every "
         "Computer Scientist Should Know About Floating-Point Arithmetic, ACM Computing Surveys 23(1), 1991, "
@@ -50,6 +66,9 @@ class SqrtDifference(Rule):
                 "c / (root(v * v + c) + v)"),
         Example("import math\ndef f(k, t, d):\n    hot = math.sqrt(k * (t + d))\n    cold = math.sqrt(k * t)\n"
                 "    return hot - cold\n", True, "k * d / (hot + cold)"),
+        Example("import math\ndef arsinh(x):\n    return math.log(x + math.sqrt(x * x + 1))\n", True,
+                "math.asinh(x)", {"x": -1e6}),
+        Example("import numpy as np\ndef span(x, c):\n    return x + np.sqrt(x**2 + c)\n", True),
         Example("import math\ndef f(a, b):\n    return math.sqrt(a) - math.sqrt(b)\n", False,
                 note="independent inputs: nothing says they are close"),
         Example("import math\ndef f(x):\n    return 1 / (math.sqrt(x + 1) + math.sqrt(x))\n", False),
@@ -58,6 +77,16 @@ class SqrtDifference(Rule):
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
+        if isinstance(node, ast.Call):
+            yield from self._log_of_root_sum(node, ctx)
+            return
+        if isinstance(node, ast.BinOp) and isinstance(node.op, ast.Add):
+            if not self._inside_log(node, ctx) and _plus_root_of_square(ctx, node) is not None:
+                x, c = _plus_root_of_square(ctx, node)  # type: ignore[misc]
+                yield Hit(node, "for negative x, x + sqrt(x*x + c) cancels to about c / (2|x|) and loses the digits "
+                          "the two terms share (all of them for |x| above 1e8 when c is 1); use "
+                          "-c / (x - sqrt(x*x + c)) for x < 0", severity=Severity.NOTE)
+            return
         ops = difference_operands(ctx, node)
         if ops is None or ops.aug:
             return
@@ -72,6 +101,28 @@ class SqrtDifference(Rule):
         fix = rewrite or "(a - b) / (sqrt(a) + sqrt(b))"
         yield Hit(node, "the two square roots agree in their leading digits and the subtraction discards them "
                   f"(sqrt(x + 1) - sqrt(x) is 0 for x above 1e16); use {fix}", severity=severity, rewrite=rewrite)
+
+    @staticmethod
+    def _inside_log(node: ast.AST, ctx: Context) -> bool:
+        parent = ctx.parent(node)
+        return isinstance(parent, ast.Call) and ctx.family(parent) == "log" and p.single_arg(parent) is node
+
+    @staticmethod
+    def _log_of_root_sum(node: ast.Call, ctx: Context) -> Iterator[Hit]:
+        """log(x + sqrt(x*x + 1)): the inverse hyperbolic sine, written so that it cancels for x < 0."""
+        arg = p.single_arg(node)
+        if ctx.family(node) != "log" or arg is None or not isinstance(arg, ast.BinOp) or not isinstance(arg.op, ast.Add):
+            return
+        found = _plus_root_of_square(ctx, arg)
+        if found is None or not p.is_one(found[1]):
+            return
+        module = p.callee_module(ctx, node) or "math"
+        rewrite, imports = None, ()
+        if module in ("math", "numpy", "cmath", "mpmath"):
+            func, imports = p.spelled(ctx, module, "asinh" if module != "numpy" else "arcsinh")
+            rewrite = f"{func}({p.text(ctx, found[0])})"
+        yield Hit(node, "log(x + sqrt(x*x + 1)) cancels for negative x (it returns -inf below about -1e8) and "
+                  f"rounds away small x; use {rewrite or 'asinh(x)'}", rewrite=rewrite, imports=imports)
 
     @staticmethod
     def _conjugate_numerator(ctx: Context, left: ast.expr, right: ast.expr,

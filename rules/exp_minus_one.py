@@ -37,13 +37,36 @@ def expm1_text(ctx: Context, call: ast.Call, arg: ast.expr, negate: bool) -> tup
     return (f"-{body}" if negate else body), imports
 
 
+def compound_argument(ctx: Context, expr: ast.expr) -> tuple[ast.expr, ast.expr] | None:
+    """(r, n) when `expr` is (1 + r)**n, directly or through locals: exp(n*log1p(r)) in disguise."""
+    origin = ctx.origin(expr)
+    if not (isinstance(origin, ast.BinOp) and isinstance(origin.op, ast.Pow)):
+        return None
+    base = ctx.origin(origin.left)
+    if not (isinstance(base, ast.BinOp) and isinstance(base.op, ast.Add)):
+        return None
+    r = base.right if p.is_one(base.left) else base.left if p.is_one(base.right) else None
+    if r is None or not p.has_free_names(r) or p.is_integer_valued(ctx, r):
+        return None
+    return r, origin.right
+
+
+def compound_text(ctx: Context, r: ast.expr, n: ast.expr, negate: bool) -> tuple[str, tuple[str, ...]]:
+    """`math.expm1(n * math.log1p(r))` in the file's style (numpy where only numpy is imported)."""
+    module = "numpy" if ctx.imports.imports_any("numpy") and not ctx.imports.imports_any("math") else "math"
+    expm1, imports = p.spelled(ctx, module, "expm1")
+    log1p, more = p.spelled(ctx, module, "log1p")
+    body = f"{expm1}({p.operand_text(ctx, n)} * {log1p}({p.text(ctx, r)}))"
+    return (f"-{body}" if negate else body), tuple(dict.fromkeys(imports + more))
+
+
 class ExpMinusOne(Rule):
     id = "exp-minus-one"
     title = "exp(x) - 1 computed directly"
     severity = Severity.WARNING
     summary = "exp(x) - 1 or 1 - exp(x): cancels for small |x|; use expm1"
     node_types = (ast.BinOp,)
-    requires = ("exp",)  # a file that never spells these cannot hold this pattern
+    requires = ("exp", "**")  # a file that never spells these cannot hold this pattern
     method = (
         "expm1 as provided by C99/IEEE 754-2008 libm; error analysis of exp(x) - 1 in N. J. Higham, "
         "Accuracy and Stability of Numerical Algorithms, 2nd ed., SIAM 2002, section 1.14.1 (from memory)"
@@ -53,7 +76,10 @@ class ExpMinusOne(Rule):
         Example("import math\ndef growth(r):\n    return math.exp(r) - 1.0\n", True, "math.expm1(r)", {"r": 1e-10}),
         Example("import numpy as np\ndef f(x):\n    e = np.exp(x)\n    return e - 1\n", True, "np.expm1(x)"),
         Example("from math import exp as e\ndef decay(t, tau):\n    return 1 - e(-t / tau)\n", True, "-math.expm1(-t / tau)"),
+        Example("import math\ndef interest(rate, periods):\n    return (1 + rate) ** periods - 1\n", True,
+                "math.expm1(periods * math.log1p(rate))", {"rate": 1e-9, "periods": 12.0}),
         Example("import math\ndef f(x):\n    return math.expm1(x)\n", False),
+        Example("def growth(k, n):\n    return (1 + len(k)) ** n - 1\n", False, note="integer base: exact"),
         Example("import math\nK = math.exp(2.0) - 1.0\n", False, note="constant argument: nothing to cancel"),
         Example("import math\ndef f(x):\n    return math.exp(x) - math.exp(-x)\n", False, note="a different rule's pattern"),
         Example("import mpmath as mp\ndef coeffs():\n    with mp.workdps(30):\n"
@@ -66,10 +92,18 @@ class ExpMinusOne(Rule):
         if not isinstance(node.op, ast.Sub):
             return
         if p.is_one(node.right):
-            found, negate = exp_argument(ctx, node.left), False
+            other, negate = node.left, False
         elif p.is_one(node.left):
-            found, negate = exp_argument(ctx, node.right), True
+            other, negate = node.right, True
         else:
+            return
+        found = exp_argument(ctx, other)
+        if found is None and not p.in_raised_precision(ctx, node):
+            compound = compound_argument(ctx, other)
+            if compound is not None:
+                rewrite, imports = compound_text(ctx, *compound, negate)
+                yield Hit(node, "(1 + r)**n - 1 keeps only the digits of r that survive 1 + r: for |r| near 1e-10 "
+                          f"half are lost and below 1e-16 it returns 0; use {rewrite}", rewrite=rewrite, imports=imports)
             return
         if found is None or p.in_raised_precision(ctx, node):
             return  # inside mp.workdps(...) the precision is the caller's choice, not double's

@@ -44,3 +44,11 @@ def log_count(samples):
 
 def shifted_exp(x):
     return math.exp(x) - 2.0  # ok: exp-minus-one
+
+
+def monthly_yield(rate, months):
+    return (1.0 + rate) ** months - 1.0  # expect: exp-minus-one
+
+
+def whole_growth(count, n):
+    return (1 + len(count)) ** n - 1  # ok: exp-minus-one

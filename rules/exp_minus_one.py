@@ -12,6 +12,7 @@ import ast
 from collections.abc import Iterator
 
 from auditor import Context, Example, Hit, Rule, Severity
+from auditor import algebra as alg
 from auditor import patterns as p
 
 #: modules that offer expm1 under that name
@@ -43,9 +44,12 @@ def compound_argument(ctx: Context, expr: ast.expr) -> tuple[ast.expr, ast.expr]
     if not (isinstance(origin, ast.BinOp) and isinstance(origin.op, ast.Pow)):
         return None
     base = ctx.origin(origin.left)
-    if not (isinstance(base, ast.BinOp) and isinstance(base.op, ast.Add)):
+    if not (isinstance(base, ast.BinOp) and isinstance(base.op, (ast.Add, ast.Sub))):
         return None
-    r = base.right if p.is_one(base.left) else base.left if p.is_one(base.right) else None
+    if isinstance(base.op, ast.Sub):  # (1 - r)**n is (1 + (-r))**n
+        r = alg.neg(base.right) if p.is_one(base.left) else None
+    else:
+        r = base.right if p.is_one(base.left) else base.left if p.is_one(base.right) else None
     if r is None or not p.has_free_names(r) or p.is_integer_valued(ctx, r):
         return None
     return r, origin.right
@@ -56,7 +60,8 @@ def compound_text(ctx: Context, r: ast.expr, n: ast.expr, negate: bool) -> tuple
     module = "numpy" if ctx.imports.imports_any("numpy") and not ctx.imports.imports_any("math") else "math"
     expm1, imports = p.spelled(ctx, module, "expm1")
     log1p, more = p.spelled(ctx, module, "log1p")
-    body = f"{expm1}({p.operand_text(ctx, n)} * {log1p}({p.text(ctx, r)}))"
+    n_text = p.text(ctx, n) if p.literal_number(n) is not None else p.operand_text(ctx, n)
+    body = f"{expm1}({n_text} * {log1p}({p.text(ctx, r)}))"
     return (f"-{body}" if negate else body), tuple(dict.fromkeys(imports + more))
 
 
@@ -80,6 +85,8 @@ class ExpMinusOne(Rule):
                 "math.expm1(periods * math.log1p(rate))", {"rate": 1e-9, "periods": 12.0}),
         Example("import math\ndef f(x):\n    return math.expm1(x)\n", False),
         Example("def growth(k, n):\n    return (1 + len(k)) ** n - 1\n", False, note="integer base: exact"),
+        Example("def lorentz_excess(beta2):\n    return (1.0 - beta2) ** -0.5 - 1.0\n", True,
+                "math.expm1(-0.5 * math.log1p(-beta2))", {"beta2": 1e-12}),
         Example("import math\nK = math.exp(2.0) - 1.0\n", False, note="constant argument: nothing to cancel"),
         Example("import math\ndef f(x):\n    return math.exp(x) - math.exp(-x)\n", False, note="a different rule's pattern"),
         Example("import mpmath as mp\ndef coeffs():\n    with mp.workdps(30):\n"

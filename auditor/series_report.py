@@ -34,6 +34,8 @@ MAGNITUDE: dict[str, str] = {
 _SLOW = ("atan", "log1p")
 _SUMS = ("sum", "fsum")
 _DOTS = ("dot", "inner", "matmul", "vdot")
+#: callee names that can be a sum or a dot product (aliases are checked through the imports)
+_CALL_NAMES = frozenset({*_SUMS, *_DOTS, "nansum"})
 
 
 def severity_for(ctx: Context, loop: Loop, acc: Accumulation, known: Recognised | None) -> Severity:
@@ -75,6 +77,10 @@ def summed_term(ctx: Context, node: ast.AST) -> tuple[ast.expr, set[str], set[st
         return _array_term(ctx, ast.BinOp(node.left, ast.Mult(), node.right))
     if not isinstance(node, ast.Call):
         return None
+    func = node.func
+    last = func.attr if isinstance(func, ast.Attribute) else func.id if isinstance(func, ast.Name) else None
+    if last is None or (last not in _CALL_NAMES and not (isinstance(func, ast.Name) and func.id in ctx.imports.bindings)):
+        return None  # neither a sum or dot by name nor an imported alias that could be one
     fam = ctx.family(node)
     builtin = isinstance(node.func, ast.Name) and node.func.id == "sum" and ctx.qualname(node.func) is None
     if (fam in _SUMS or builtin) and node.args:
@@ -130,14 +136,18 @@ def expressions_through(ctx: Context, expr: ast.AST, depth: int = 3) -> list[ast
     return out
 
 
-def _names_through(ctx: Context, expr: ast.AST, depth: int) -> list[ast.Name]:
+def _names_through(ctx: Context, expr: ast.AST, depth: int, seen: set[int] | None = None) -> list[ast.Name]:
+    """Names read by `expr` and, `depth` levels down, by the values of the locals it reads; each
+    value is walked once however often its name is read (`seen` holds the values walked)."""
+    seen = set() if seen is None else seen
     out = []
     for n in walk(expr):
         if isinstance(n, ast.Name) and hasattr(n, "lineno"):
             out.append(n)
             origin = ctx.origin(n)
-            if origin is not n and depth > 0:
-                out.extend(_names_through(ctx, origin, depth - 1))
+            if origin is not n and depth > 0 and id(origin) not in seen:
+                seen.add(id(origin))
+                out.extend(_names_through(ctx, origin, depth - 1, seen))
     return out
 
 

@@ -2,6 +2,7 @@
 from __future__ import annotations
 
 import ast
+from collections.abc import Iterator
 from dataclasses import dataclass
 
 from auditor import patterns as p
@@ -11,7 +12,7 @@ from auditor.series_signs import (
     Accumulation, Loop, _memo, accumulations, recurrence_ratio, alternation, index_names, new_values, parity_branches, sign_of, updates,
     value_before,
 )
-from auditor.nodes import walk
+from auditor.nodes import children, walk
 
 
 @dataclass(frozen=True, slots=True)
@@ -193,11 +194,22 @@ def _sources(ctx: Context, scope: ast.AST) -> dict[str, ast.AST]:
     return out
 
 
+def _own_nodes(scope: ast.AST) -> Iterator[ast.AST]:
+    """The nodes of one scope, nested functions and classes excluded (a module's own code only)."""
+    stack: list[ast.AST] = list(getattr(scope, "body", []))
+    while stack:
+        node = stack.pop()
+        if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef, ast.Lambda)):
+            continue
+        yield node
+        stack.extend(children(node))
+
+
 def subtracted_twin(ctx: Context, node: ast.AST) -> ast.BinOp | None:
     """`a - b` of two positive series where `node` (a loop or sum call) computes the earlier one."""
     scope = ctx.scope(node)
     subs = _memo(scope, "name_differences", lambda: [
-        n for n in walk(scope) if isinstance(n, ast.BinOp) and isinstance(n.op, ast.Sub)
+        n for n in _own_nodes(scope) if isinstance(n, ast.BinOp) and isinstance(n.op, ast.Sub)
         and isinstance(n.left, ast.Name) and isinstance(n.right, ast.Name)
     ])
     if isinstance(node, (ast.For, ast.While)):

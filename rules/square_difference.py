@@ -86,6 +86,8 @@ class SquareDifference(Rule):
                 note="the naive-variance rule's pattern"),
         Example("def f(n, m):\n    return n**2 - m**2\n", True, note="names alone do not say integer"),
         Example("def f(xs):\n    return len(xs) ** 2 - 1\n", False, note="integer arithmetic is exact"),
+        Example("import math\ndef test_corr():\n    r = 0.5\n    return math.sqrt(1 - r**2)\n", False,
+                note="a constant set two lines above: one fixed value (field trial)"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -97,6 +99,8 @@ class SquareDifference(Rule):
             return
         if (p.is_integer_valued(ctx, x) and p.is_integer_valued(ctx, y)) or from_reduction(ctx, x) or from_reduction(ctx, y):
             return
+        if p.constant_value(ctx, x) is not None and p.constant_value(ctx, y) is not None:
+            return  # both sides are constants set in the code (r = 0.5 above): one fixed value, nothing to audit
         one = p.is_one(x) or p.is_one(y)
         if one and pythagoras(ctx, x, y) is None and not under_root(ctx, node):
             return  # 1 - x*x in a polynomial is common and harmless; under a root (a cosine, a Lorentz factor) it bites

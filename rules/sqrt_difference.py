@@ -81,7 +81,10 @@ class SqrtDifference(Rule):
             yield from self._log_of_root_sum(node, ctx)
             return
         if isinstance(node, ast.BinOp) and isinstance(node.op, ast.Add):
-            if not self._inside_log(node, ctx) and _plus_root_of_square(ctx, node) is not None:
+            parent = ctx.parent(node)
+            conjugate = isinstance(parent, ast.BinOp) and isinstance(parent.op, ast.Div) and parent.right is node
+            # c / (x + sqrt(x*x + c)) is the stable conjugate form of sqrt(x*x + c) - x: left alone
+            if not conjugate and not self._inside_log(node, ctx) and _plus_root_of_square(ctx, node) is not None:
                 x, c = _plus_root_of_square(ctx, node)  # type: ignore[misc]
                 yield Hit(node, "for negative x, x + sqrt(x*x + c) cancels to about c / (2|x|) and loses the digits "
                           "the two terms share (all of them for |x| above 1e8 when c is 1); use "

@@ -8,7 +8,7 @@ from html import escape
 
 from auditor.model import Finding, Measurement, Report, Rewrite
 from auditor.report import plots
-from auditor.report.text import where
+from auditor.report.text import describe_series, where
 from auditor.version import __version__
 
 STYLE = """
@@ -72,13 +72,7 @@ def _figures(m: Measurement) -> str:
         ("reference there", escape(m.reference_value or "-")),
     ]
     if m.series is not None:
-        s = m.series
-        text = f"{s.terms} terms, smallest |t_{s.smallest_term_index}| = {_fmt(s.smallest_term)}"
-        if s.cancellation_log10 is not None:
-            text += f", cancellation 10^{s.cancellation_log10:.1f}"
-        if s.optimal_terms is not None:
-            text += f"; divergent: stop at {s.optimal_terms} terms (error about {_fmt(s.truncation_error, '.2g')})"
-        rows.append(("series", escape(text)))
+        rows.append(("series", escape(describe_series(m.series))))
     body = "".join(f"<tr><th>{k}</th><td>{v}</td></tr>" for k, v in rows)
     reason = f"<p>{escape(m.reason)}</p>" if m.reason else ""
     return f"<table class=figures>{body}</table>{reason}"

@@ -5,9 +5,20 @@ import io
 from collections import Counter
 from collections.abc import Sequence
 
-from auditor.model import Finding, Measurement, Report
+from auditor.model import Finding, Measurement, Report, SeriesFigures
 
 FRAME = 1  #: lines of context shown above and below a finding
+
+
+def describe_series(s: SeriesFigures) -> str:
+    """One sentence on a traced series, shared by the text and HTML reports."""
+    text = f"{s.terms} terms, smallest term #{s.smallest_term_index} ({s.smallest_term:.3g})"
+    if s.cancellation_log10 is not None:
+        text += f", cancellation 10^{s.cancellation_log10:.1f}"
+    if s.optimal_terms is not None:
+        error = f"{s.truncation_error:.2g}" if s.truncation_error is not None else "unknown"
+        text += f", divergent: stop at {s.optimal_terms} terms (error ~{error})"
+    return text
 
 
 def _measurement_line(m: Measurement) -> str:
@@ -19,13 +30,7 @@ def _measurement_line(m: Measurement) -> str:
     if m.worst_inputs:
         parts.append("worst at " + ", ".join(f"{k}={v:.6g}" for k, v in m.worst_inputs.items()))
     if m.series is not None:
-        s = m.series
-        series = f"series: {s.terms} terms, smallest term #{s.smallest_term_index} ({s.smallest_term:.3g})"
-        if s.cancellation_log10 is not None:
-            series += f", cancellation 10^{s.cancellation_log10:.1f}"
-        if s.optimal_terms is not None:
-            series += f", divergent: stop at {s.optimal_terms} terms (error ~{s.truncation_error:.2g})"
-        parts.append(series)
+        parts.append("series: " + describe_series(m.series))
     text = "; ".join(parts)
     return f"{text}. {m.reason}" if m.reason else text
 

@@ -8,7 +8,9 @@ coordinates apart: it knows the quadrant and never divides. Where x is known pos
 (a length, an absolute value, a square root) the two are equal and atan2 only removes the
 division; there the finding is a note and the rewrite is exact. Elsewhere the rewrite is not
 offered, because atan2 changes the value for x < 0: that is the fix only when a full-circle
-angle is meant, which the author has to confirm.
+angle is meant, which the author has to confirm. An atan divided by pi (`0.5 + atan(z) / pi`, a
+Cauchy-type cdf, or `(2 / pi) * atan(z)`) maps the half range onto an interval on purpose: z is a
+standardised variable, not the slope of a point, and atan2 would break the mapping.
 """
 from __future__ import annotations
 
@@ -24,6 +26,31 @@ from auditor.nodes import walk
 #: the two-argument arctangent of each library
 _ATAN2 = {"math": "atan2", "numpy": "arctan2", "torch": "atan2", "jax.numpy": "arctan2", "cupy": "arctan2",
           "mpmath": "atan2"}
+
+
+def _factors(expr: ast.expr, inverted: bool = False) -> Iterator[tuple[ast.expr, bool]]:
+    """The factors of a product/quotient chain, each with whether it divides."""
+    if isinstance(expr, ast.BinOp) and isinstance(expr.op, (ast.Mult, ast.Div)):
+        yield from _factors(expr.left, inverted)
+        yield from _factors(expr.right, inverted != isinstance(expr.op, ast.Div))
+    else:
+        yield expr, inverted
+
+
+def _is_pi(ctx: Context, node: ast.expr) -> bool:
+    return ctx.family(node) == "pi" or isinstance(node, ast.Constant) and isinstance(node.value, float) \
+        and abs(node.value - 3.141592653589793) < 1e-6
+
+
+def divided_by_pi(ctx: Context, node: ast.AST) -> bool:
+    """True when the product/quotient chain holding `node` divides by pi (`(1 - a) / np.pi * np.arctan(z)`)."""
+    top = node
+    while isinstance(ctx.parent(top), ast.BinOp) and isinstance(ctx.parent(top).op, (ast.Mult, ast.Div)):  # type: ignore[union-attr]
+        top = ctx.parent(top)  # type: ignore[assignment]
+    factors = list(_factors(top))  # type: ignore[arg-type]
+    if any(not inverted and p.literal_number(f) in (180, 200) for f, inverted in factors):
+        return False  # `* 180 / pi`: a conversion to degrees (or gradians), the angle is still meant
+    return top is not node and any(inverted and _is_pi(ctx, f) for f, inverted in factors)
 
 
 class AtanOfRatio(Rule):
@@ -47,6 +74,12 @@ class AtanOfRatio(Rule):
         Example("import math\ndef phase(i, q):\n    return math.atan2(q, i)\n", False),
         Example("import math\ndef acot(x):\n    return math.atan(1 / x)\n", False, note="arccot: a constant numerator"),
         Example("import math\ndef half(x):\n    return math.atan(x / 2)\n", False, note="constant denominator"),
+        Example("import numpy as np\ndef skew_cdf(x, a):\n    return (1 + a) / 2 + (1 - a) / np.pi * np.arctan(x / (1 - a))\n",
+                False, note="field trial: atan divided by pi maps the half range onto a probability"),
+        Example("import math\ndef squash(u, s):\n    return 2 / math.pi * math.atan(u / s)\n",
+                False, note="2/pi * atan(...) normalises the half range onto (-1, 1)"),
+        Example("import math\ndef heading(dy, dx):\n    return math.atan(dy / dx) * 180 / math.pi\n", True,
+                note="a conversion to degrees divides by pi too, but the angle of the point is still meant"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -64,6 +97,8 @@ class AtanOfRatio(Rule):
             return  # complex arctangent: no quadrant to lose, and atan2 takes no complex arguments
         if not reads_variables(ctx, y) or not reads_variables(ctx, x):
             return
+        if divided_by_pi(ctx, node):
+            return  # the half range normalised to an interval (a cdf): the quotient is a standardised variable
         if not is_nonnegative(ctx, x):
             yield Hit(node, "atan(y / x) is off by pi when x < 0 and divides by zero at x = 0; use atan2(y, x) "
                       "if the angle of the point (x, y) is meant")

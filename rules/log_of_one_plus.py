@@ -4,6 +4,11 @@ Forming 1 + x rounds away every digit of x below the unit roundoff of 1: for |x|
 about six significant digits of x survive, and for |x| < 1.1e-16 the sum is exactly 1 and the
 logarithm returns 0 instead of about x. `log(1 - x)` has the same flaw. log1p(x) takes x
 itself and keeps full relative accuracy; `log1p(-x)` covers `log(1 - x)`.
+
+Counts are left alone: integers (`len(xs)`, `np.arange(n)`, histogram and bincount results) and
+quantities named as counts by the trade's conventions (`nobs`, `n_samples`, `df_resid`, `dof`,
+`num_items`, `hit_count`): 1 + a count rounds nothing away, and a count (or degrees of freedom)
+is never a small fraction.
 """
 from __future__ import annotations
 
@@ -27,7 +32,7 @@ def one_plus(ctx: Context, expr: ast.expr) -> tuple[ast.expr, bool] | None:
         other, negated = expr.left, False
     else:
         return None
-    if not p.has_free_names(other) or p.is_integer_valued(ctx, other) or counts(ctx, other):
+    if not p.has_free_names(other) or p.is_integer_valued(ctx, other) or counts(ctx, other) or count_named(ctx, other):
         return None
     return other, negated
 
@@ -43,6 +48,27 @@ def counts(ctx: Context, expr: ast.expr) -> bool:
     if family == "arange":
         return bool(expr.args) and all(p.is_integer_valued(ctx, a) for a in expr.args)
     return family in ("bincount", "count_nonzero")
+
+
+#: identifier words that name a count or degrees of freedom (statistics and array-code conventions)
+_COUNT_FIRST = frozenset({"n", "num", "nobs", "nsamples", "nrep", "df", "dof", "ddof", "count", "counts"})
+_COUNT_LAST = frozenset({"count", "counts", "nobs", "df", "dof"})
+#: last words that make a count-prefixed name a fraction after all (`n_rate`, `num_frac`)
+_FRACTION_LAST = frozenset({"rate", "rates", "frac", "fraction", "ratio", "prob", "p", "pct", "share", "eps", "tol"})
+
+
+def count_named(ctx: Context, expr: ast.expr, depth: int = 3) -> bool:
+    """`nobs`, `res.df_resid + res.df_model`, `n_samples - 1`: sums of quantities named as counts."""
+    expr = ctx.origin(expr)
+    if isinstance(expr, ast.BinOp) and isinstance(expr.op, (ast.Add, ast.Sub, ast.Mult)) and depth > 0:
+        sides = (expr.left, expr.right)
+        return any(count_named(ctx, s, depth - 1) for s in sides) and all(
+            count_named(ctx, s, depth - 1) or p.is_integer_valued(ctx, s) for s in sides)
+    name = expr.id if isinstance(expr, ast.Name) else expr.attr if isinstance(expr, ast.Attribute) else None
+    if name is None:
+        return False
+    words = name.lower().strip("_").split("_")
+    return (words[0] in _COUNT_FIRST or words[-1] in _COUNT_LAST) and words[-1] not in _FRACTION_LAST
 
 
 class LogOfOnePlus(Rule):
@@ -70,6 +96,13 @@ class LogOfOnePlus(Rule):
                 "    return np.log(1 + counts)\n", False, note="histogram counts are integers"),
         Example("import mpmath as mp\ndef coeffs():\n    with mp.workdps(30):\n"
                 "        return mp.taylor(lambda x: mp.log(1 + x), 0, 10)\n", False, note="arbitrary precision"),
+        Example("import numpy as np\ndef bic(res, llf, k):\n    nobs = res.df_model + res.df_resid + 1\n"
+                "    return -2 * llf + k * np.log(nobs)\n", False,
+                note="field trial: degrees of freedom plus one is a count, not 1 + a small x"),
+        Example("import numpy as np\ndef penalty(n_samples, x):\n    return np.log(n_samples + 1) * x\n", False,
+                note="a quantity named as a count"),
+        Example("import numpy as np\ndef growth(n_rate, n_obs):\n    return np.log(1 + n_rate) - np.log(1 + n_obs * 0.01)\n",
+                True, note="a rate is a fraction, and a count times a fraction is not a count"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:

@@ -9,7 +9,10 @@ from auditor.series_growth import (
 )
 from auditor.series_model import KNOWN, Recognised
 from auditor.series_probe import recognise_array, recognise_generator, recognise_loop
-from auditor.series_report import MAGNITUDE, expressions_through, vector_resolver, loop_rewrite, severity_for, summed_term, vector_alternates
+from auditor.series_report import (
+    MAGNITUDE, expressions_through, loop_rewrite, magnitude_reads_index, severity_for, summed_term, vector_alternates,
+    vector_resolver,
+)
 from auditor.series_rewrite import DESCRIBED, fresh, guard_explicit, guard_recurrence, library_call, module_for, read_after
 from auditor.series_signs import (
     Accumulation, accumulations, alternation, carried, contains_sign_power, index_names, is_negative_factor,
@@ -23,7 +26,7 @@ from auditor.series_terms import (
 )
 
 __all__ = [
-    "Table", "carried", "expressions_through", "vector_resolver", "exact_arithmetic", "coefficient_table", "grows_like_asymptotic", "DESCRIBED", "KNOWN", "MAGNITUDE", "loop_rewrite", "severity_for", "summed_term", "vector_alternates", "Accumulation", "Growth", "Recognised", "accumulations", "alternation",
+    "Table", "carried", "expressions_through", "magnitude_reads_index", "vector_resolver", "exact_arithmetic", "coefficient_table", "grows_like_asymptotic", "DESCRIBED", "KNOWN", "MAGNITUDE", "loop_rewrite", "severity_for", "summed_term", "vector_alternates", "Accumulation", "Growth", "Recognised", "accumulations", "alternation",
     "bounded_below_x", "contains_sign_power", "factorial_weight", "fresh", "growth", "guard_explicit",
     "guard_recurrence", "in_loop_resolver", "index_degree", "index_names", "integer_names",
     "is_integer_term", "is_negative_factor", "is_sign_power", "library_call", "loop_statements",

@@ -180,6 +180,33 @@ def vector_alternates(ctx: Context, term: ast.AST, idx: set[str], depth: int = 3
     return False
 
 
+def magnitude_reads_index(ctx: Context, term: ast.AST, idx: set[str], depth: int = 3) -> bool:
+    """True when the size of the term, not just its sign, changes with the summed index.
+
+    `(-1)**k * x**k / k!` is a series; `es * (-1)**np.arange(n)` dotted with data is a
+    +-1-weighted combination whose magnitudes come from the data, not from the index (a
+    contrast, not a series). Pure sign factors `(-1)**k` are skipped; an index name or an
+    inline `arange` anywhere else (through the locals the term reads) counts."""
+    seen: set[int] = set()
+    stack: list[tuple[ast.AST, int]] = [(term, depth)]
+    while stack:
+        node, left = stack.pop()
+        if is_sign_power(ctx, node) and p.is_number(node.left if isinstance(node, ast.BinOp) else node.args[0], -1):  # type: ignore[attr-defined]
+            continue  # the sign, not the size
+        if isinstance(node, ast.Call) and ctx.family(node) == "arange":
+            return True
+        if isinstance(node, ast.Name) and hasattr(node, "lineno"):
+            if node.id in idx:
+                return True
+            origin = ctx.origin(node)
+            if origin is not node and left > 0 and id(origin) not in seen:
+                seen.add(id(origin))
+                stack.append((origin, left - 1))
+            continue
+        stack.extend((c, left) for c in ast.iter_child_nodes(node))
+    return False
+
+
 def _opaque(ctx: Context, value: ast.AST) -> bool:
     """A value made by a call to something other than a numeric-library function (a model, a
     method): its signs are not the ones written in its arguments, so they are not followed."""

@@ -103,6 +103,18 @@ class AlternatingSeries(Rule):
             False,
             note="a summed comparison counts booleans; signs are not followed through a model's call (field trial)",
         ),
+        Example(
+            "import numpy as np\ndef response(x, es, npos):\n    coeff = es * (-1) ** np.arange(npos)\n"
+            "    return np.dot(x[:, 0:npos], coeff)\n",
+            False,
+            note="+-1 weights on data: the magnitudes do not change with the index, a contrast, not a series (field trial)",
+        ),
+        Example(
+            "import numpy as np\ndef osc(x, n=40):\n    k = np.arange(n)\n    signs = (-1.0) ** k\n"
+            "    return np.sum(signs * x**k / np.cumprod(np.maximum(k, 1)))\n",
+            True,
+            note="the sign array and the magnitude both read the index: a series",
+        ),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -139,8 +151,8 @@ class AlternatingSeries(Rule):
         term, idx, ints = found
         weight = s.factorial_weight(ctx, term, idx, s.vector_resolver(ctx, term))
         if vector_alternates(ctx, term, idx) and weight <= 0:
-            if s.is_integer_term(ctx, term, ints):
-                return
+            if s.is_integer_term(ctx, term, ints) or not s.magnitude_reads_index(ctx, term, idx):
+                return  # integer terms are exact; +-1 weights on data are a contrast, not a series
             known = _recognise_vector(ctx, node, idx)
             fix, rewrite = "use the closed form or library function", None
             imports: tuple[str, ...] = ()

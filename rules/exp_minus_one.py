@@ -9,11 +9,18 @@ provides expm1, which evaluates exp(x) - 1 without forming exp(x).
 from __future__ import annotations
 
 import ast
+import math
 from collections.abc import Iterator
 
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
+from auditor import polyrange
+
+#: |u| from which exp(u) - 1 is left alone. Near u = 0 the subtraction magnifies the relative
+#: error of exp(u) by |e^u / (e^u - 1)|, about 1/|u|, so it loses about log10(1/|u|) digits;
+#: for every |u| >= 0.1 the factor is at most e^0.1 / (e^0.1 - 1) = 10.5: about one digit.
+_SAFE_EXPONENT = 0.1
 
 #: modules that offer expm1 under that name
 _HAS_EXPM1 = ("math", "numpy", "scipy.special", "mpmath", "torch", "jax.numpy", "cupy")
@@ -27,6 +34,23 @@ def exp_argument(ctx: Context, expr: ast.expr) -> tuple[ast.expr, ast.Call] | No
         if arg is not None and p.has_free_names(arg):
             return arg, origin
     return None
+
+
+def stays_away_from_zero(ctx: Context, exponent: ast.expr) -> bool:
+    """True when `exponent` is a one-variable literal polynomial with |u| >= _SAFE_EXPONENT for every real value."""
+    return polyrange.distance_from_zero(exponent, ctx.origin) >= _SAFE_EXPONENT
+
+
+def compound_stays_away(ctx: Context, r: ast.expr, n: ast.expr) -> bool:
+    """(1 + r)**n - 1 with a literal n is exp(u), u = n log(1 + r), and |u| >= _SAFE_EXPONENT.
+
+    |n log(1 + r)| >= t holds when r >= e^(t/|n|) - 1 or r <= e^(-t/|n|) - 1; the first bound is
+    the larger in size, so inf |r| >= e^(t/|n|) - 1 is enough on both sides.
+    """
+    exponent = p.literal_number(n)
+    if not isinstance(exponent, (int, float)) or exponent == 0:
+        return False
+    return polyrange.distance_from_zero(r, ctx.origin) >= math.expm1(_SAFE_EXPONENT / abs(exponent))
 
 
 def expm1_text(ctx: Context, call: ast.Call, arg: ast.expr, negate: bool) -> tuple[str | None, tuple[str, ...]]:
@@ -92,6 +116,14 @@ class ExpMinusOne(Rule):
         Example("import mpmath as mp\ndef coeffs():\n    with mp.workdps(30):\n"
                 "        return mp.taylor(lambda x: mp.exp(x) - 1, 0, 10)\n", False,
                 note="field trial regression: arbitrary precision (docs/field-trial.md)"),
+        Example("import numpy as np\ndef survival(s):\n    return 1 - np.exp(-5.2 + 20.1 * s - 30.4 * s ** 2)\n", False,
+                note="exponent a quadratic with no real root, at most -1.88 for every s: 1 - exp(u) >= 0.85, "
+                     "nothing cancels (field trial)"),
+        Example("import math\ndef excess(t):\n    u = 2.5 + 0.5 * (t - 1.0) ** 2\n    return math.exp(u) - 1.0\n", False,
+                note="exponent through a local, never below 2.5 (field trial)"),
+        Example("import numpy as np\ndef bump(z):\n    return 1 - np.exp(-0.5 * (z - 2.0) ** 2)\n", True,
+                "-np.expm1(-0.5 * (z - 2.0) ** 2)", {"z": 2.0 + 1e-6},
+                note="a quadratic exponent with a real root (z = 2) still cancels there"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -107,7 +139,7 @@ class ExpMinusOne(Rule):
         found = exp_argument(ctx, other)
         if found is None and not p.in_raised_precision(ctx, node):
             compound = compound_argument(ctx, other)
-            if compound is not None:
+            if compound is not None and not compound_stays_away(ctx, *compound):
                 rewrite, imports = compound_text(ctx, *compound, negate)
                 yield Hit(node, "(1 + r)**n - 1 keeps only the digits of r that survive 1 + r: for |r| near 1e-10 "
                           f"half are lost and below 1e-16 it returns 0; use {rewrite}", rewrite=rewrite, imports=imports)
@@ -115,6 +147,8 @@ class ExpMinusOne(Rule):
         if found is None or p.in_raised_precision(ctx, node):
             return  # inside mp.workdps(...) the precision is the caller's choice, not double's
         arg, call = found
+        if stays_away_from_zero(ctx, arg):
+            return  # the exponent never comes near 0, so at most about one digit is lost
         rewrite, imports = expm1_text(ctx, call, arg, negate)
         fix = rewrite or "an expm1 function"
         yield Hit(

@@ -25,8 +25,8 @@ class Poly:
 
 
 def _add(p: Poly, q: Poly, sign: float = 1.0) -> Poly | None:
-    atom = _same_atom(p, q)
-    if atom is False:
+    shared, atom = _same_atom(p, q)
+    if not shared:
         return None
     n = max(len(p.coeffs), len(q.coeffs))
     pc = p.coeffs + (0.0,) * (n - len(p.coeffs))
@@ -35,8 +35,8 @@ def _add(p: Poly, q: Poly, sign: float = 1.0) -> Poly | None:
 
 
 def _mul(p: Poly, q: Poly) -> Poly | None:
-    atom = _same_atom(p, q)
-    if atom is False or len(p.coeffs) + len(q.coeffs) - 2 > _MAX_DEGREE:
+    shared, atom = _same_atom(p, q)
+    if not shared or len(p.coeffs) + len(q.coeffs) - 2 > _MAX_DEGREE:
         return None
     out = [0.0] * (len(p.coeffs) + len(q.coeffs) - 1)
     for i, a in enumerate(p.coeffs):
@@ -45,15 +45,15 @@ def _mul(p: Poly, q: Poly) -> Poly | None:
     return Poly(tuple(out), atom)
 
 
-def _same_atom(p: Poly, q: Poly) -> str | None | bool:
-    """The shared operand (None when both are constants); False when they read different operands."""
+def _same_atom(p: Poly, q: Poly) -> tuple[bool, str | None]:
+    """(False, None) when they read different operands, else (True, the shared operand or None)."""
     if p.atom is not None and q.atom is not None and p.atom != q.atom:
-        return False
-    return p.atom if p.atom is not None else q.atom
+        return False, None
+    return True, (p.atom if p.atom is not None else q.atom)
 
 
 def _literal(node: ast.expr) -> float | None:
-    if isinstance(node, ast.Constant) and type(node.value) in (int, float):
+    if isinstance(node, ast.Constant) and isinstance(node.value, (int, float)) and not isinstance(node.value, bool):
         try:
             return float(node.value)
         except OverflowError:  # an int beyond float range: not a double coefficient

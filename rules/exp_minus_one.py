@@ -140,9 +140,9 @@ class ExpMinusOne(Rule):
         if found is None and not p.in_raised_precision(ctx, node):
             compound = compound_argument(ctx, other)
             if compound is not None and not compound_stays_away(ctx, *compound):
-                rewrite, imports = compound_text(ctx, *compound, negate)
+                text, more = compound_text(ctx, *compound, negate)
                 yield Hit(node, "(1 + r)**n - 1 keeps only the digits of r that survive 1 + r: for |r| near 1e-10 "
-                          f"half are lost and below 1e-16 it returns 0; use {rewrite}", rewrite=rewrite, imports=imports)
+                          f"half are lost and below 1e-16 it returns 0; use {text}", rewrite=text, imports=more)
             return
         if found is None or p.in_raised_precision(ctx, node):
             return  # inside mp.workdps(...) the precision is the caller's choice, not double's

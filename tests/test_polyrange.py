@@ -143,3 +143,23 @@ def test_complex_value_is_not_a_real_operand():
     resolve = lambda node: value if isinstance(node, ast.Name) and node.id == "w" else node  # noqa: E731
     assert pr.distance_from_zero(expr) == pytest.approx(1.0)
     assert pr.distance_from_zero(expr, resolve) == 0.0
+
+
+def exp_minus_one_lines(code: str) -> list[int]:
+    from auditor import Config, scan_source
+
+    report = scan_source(code, "case.py", Config(only=frozenset({"exp-minus-one"})))
+    assert not report.errors, report.errors
+    return [f.span.line for f in report.findings]
+
+
+def test_rule_threshold_one_digit():
+    """inf |u| = 0.05 would lose about 1.3 digits (log10(1/0.05)): flagged; 0.2 loses under one: clean."""
+    code = "import numpy as np\ndef f(x):\n    a = 1 - np.exp(-0.05 - x ** 2)\n    return a, 1 - np.exp(-0.2 - x ** 2)\n"
+    assert exp_minus_one_lines(code) == [3]
+
+
+def test_rule_compound_with_literal_power():
+    """(1 + r)**n - 1 = exp(n log1p(r)) - 1: r = 0.5 + d^2 keeps |n log1p(r)| >= 1.5 log 1.5; r = x^2 reaches 0."""
+    code = "def f(d, x):\n    a = (1 + (0.5 + d * d)) ** 1.5 - 1\n    return a, (1 + x ** 2) ** 0.5 - 1\n"
+    assert exp_minus_one_lines(code) == [3]

@@ -16,6 +16,7 @@ from collections.abc import Iterator
 
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
+from auditor.copies import data_source
 from auditor.nodes import walk
 
 #: linear-algebra modules that offer `solve` and `lstsq` with numpy's meaning
@@ -34,7 +35,10 @@ _REPEATS = (ast.For, ast.While, ast.GeneratorExp, ast.ListComp, ast.SetComp, ast
 
 
 def _variables(ctx: Context, expr: ast.expr) -> set[str]:
-    """Variables an expression reads, attribute chains whole (`cls.x`), imported names left out."""
+    """Variables an expression reads, attribute chains whole (`cls.x`), imported names left out.
+
+    A local holding a copy or conversion of another variable (`a = a0.astype(float)`) counts as that one.
+    """
     found: set[str] = set()
     stack: list[ast.AST] = [expr]
     while stack:
@@ -42,10 +46,18 @@ def _variables(ctx: Context, expr: ast.expr) -> set[str]:
         if isinstance(node, (ast.Name, ast.Attribute)) and isinstance(node.ctx, ast.Load):
             text = ast.unparse(node)
             if text.split(".")[0] not in ctx.imports.bindings:
-                found.add(text)
+                source = data_source(ctx, node)
+                found.add(ast.unparse(source) if isinstance(source, (ast.Name, ast.Attribute)) else text)
                 continue
         stack.extend(ast.iter_child_nodes(node))
     return found
+
+
+def same_matrix(ctx: Context, a: ast.expr, b: ast.expr) -> bool:
+    """True when a and b hold the same numbers: one expression, the same local value, or copies of one array."""
+    if p.same_expr(a, b) or p.same_expr(ctx.origin(a), ctx.origin(b)):
+        return True
+    return p.same_expr(data_source(ctx, a), data_source(ctx, b))
 
 
 def _sandwich(ctx: Context, product: ast.AST, holder: ast.expr) -> bool:
@@ -144,6 +156,13 @@ class ExplicitInverse(Rule):
                 note="one pseudo-inverse applied to every item"),
         Example("import numpy as np\ndef residual(a):\n    a_inv = np.linalg.inv(a)\n    return a @ a_inv - np.eye(len(a))\n",
                 False, note="checking an inverse"),
+        Example("from scipy.linalg import inv\nimport numpy as np\ndef check(a0):\n    a = a0.astype(float).copy(order='F')\n"
+                "    a_inv = inv(a)\n    return a_inv @ a0 - np.eye(len(a0))\n", False,
+                note="an inverse tested against the matrix it was copied from (field trial)"),
+        Example("import numpy as np\ndef f(a0, b):\n    a = np.asarray(a0, dtype=float)\n    b = b.copy()\n"
+                "    return np.linalg.inv(a) @ b\n", True, note="copies of different data are still a solve"),
+        Example("import numpy as np\ndef f(a0):\n    a = a0.copy()\n    a[0, 0] = 1e-3\n"
+                "    return np.linalg.inv(a) @ a0\n", True, note="a copy changed in place holds different data"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -158,7 +177,7 @@ class ExplicitInverse(Rule):
             if kind == "inv" and p.gram_base(ctx, call.args[0]) is not None:
                 return  # inv(A.T @ A) is least squares: the normal-equations rule reports it
             rhs = factors[1 - index]
-            if p.same_expr(rhs, call.args[0]) or p.same_expr(ctx.origin(rhs), ctx.origin(call.args[0])):
+            if same_matrix(ctx, rhs, call.args[0]):
                 return  # A @ inv(A): checking the inverse itself, nothing to solve
             if _variables(ctx, rhs) and _variables(ctx, rhs) == _variables(ctx, call.args[0]):
                 return  # inv(A) @ triu(A): a test of the inverse against its own matrix

@@ -15,6 +15,7 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
+from auditor.bounded import is_bounded
 from auditor.elementary import reads_variables, root_sum, spelled_like, sqrt_argument, square_base, stable_origin
 
 #: libraries with a hypot, and whether it takes more than two arguments
@@ -66,6 +67,21 @@ class UnguardedHypot(Rule):
         Example("import math\ndef f(x, y):\n    return math.sqrt(x * x - y * y)\n", False, note="a difference, not a norm"),
         Example("import math\ndef px(row, col):\n    return math.sqrt(len(row) ** 2 + len(col) ** 2)\n", False,
                 note="integer counts"),
+        # field trial regressions (docs/field-trial.md)
+        Example("import erfa\nimport numpy as np\ndef elevation(p):\n    r, u = erfa.pn(p)\n"
+                "    return np.sqrt(u[..., 0] ** 2 + u[..., 1] ** 2)\n", False,
+                note="components of a unit vector are bounded by 1: the squares cannot overflow (field trial)"),
+        Example("import numpy as np\ndef tilt(v):\n    u = v / np.linalg.norm(v, axis=-1, keepdims=True)\n"
+                "    return np.sqrt(u[:, 0] ** 2 + u[:, 1] ** 2)\n", False,
+                note="a vector divided by its own norm has components within [-1, 1] (field trial)"),
+        Example("import numpy as np\ndef radius(lat, lon):\n    x = np.cos(lat) * np.cos(lon)\n"
+                "    y = np.cos(lat) * np.sin(lon)\n    return np.sqrt(x**2 + y**2)\n", False,
+                note="products of sines and cosines are bounded by 1 (field trial)"),
+        Example("import numpy as np\ndef spread(p, q):\n    dx, dy = p - q\n    return np.sqrt(dx * dx + dy * dy)\n",
+                True, note="differences of unknown data stay flagged, unpacked or not"),
+        Example("import erfa\nimport numpy as np\ndef moved(p, f):\n    r, u = erfa.pn(p)\n    u[..., 0] *= f\n"
+                "    return np.sqrt(u[..., 0] ** 2 + u[..., 1] ** 2)\n", True,
+                note="a unit vector scaled in place is no longer bounded"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -74,8 +90,8 @@ class UnguardedHypot(Rule):
             return
         value = ctx.origin(radicand)
         parts = components(ctx, value)
-        if parts is None:
-            return
+        if parts is None or all(is_bounded(ctx, part) for part in parts):
+            return  # components within [-1, 1] (a unit vector, sines): their squares cannot overflow
         module = p.callee_module(ctx, node) or ("numpy" if ctx.imports.imports_any("numpy") else "math")
         rewrite: str | None = None
         imports: tuple[str, ...] = ()

@@ -17,6 +17,7 @@ from collections.abc import Iterator
 
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
+from auditor.counts import count_named
 
 _HAS_LOG1P = ("math", "numpy", "scipy.special", "mpmath", "torch", "jax.numpy", "cupy")
 
@@ -48,27 +49,6 @@ def counts(ctx: Context, expr: ast.expr) -> bool:
     if family == "arange":
         return bool(expr.args) and all(p.is_integer_valued(ctx, a) for a in expr.args)
     return family in ("bincount", "count_nonzero")
-
-
-#: identifier words that name a count or degrees of freedom (statistics and array-code conventions)
-_COUNT_FIRST = frozenset({"n", "num", "nobs", "nsamples", "nrep", "df", "dof", "ddof", "count", "counts"})
-_COUNT_LAST = frozenset({"count", "counts", "nobs", "df", "dof"})
-#: last words that make a count-prefixed name a fraction after all (`n_rate`, `num_frac`)
-_FRACTION_LAST = frozenset({"rate", "rates", "frac", "fraction", "ratio", "prob", "p", "pct", "share", "eps", "tol"})
-
-
-def count_named(ctx: Context, expr: ast.expr, depth: int = 3) -> bool:
-    """`nobs`, `res.df_resid + res.df_model`, `n_samples - 1`: sums of quantities named as counts."""
-    expr = ctx.origin(expr)
-    if isinstance(expr, ast.BinOp) and isinstance(expr.op, (ast.Add, ast.Sub, ast.Mult)) and depth > 0:
-        sides = (expr.left, expr.right)
-        return any(count_named(ctx, s, depth - 1) for s in sides) and all(
-            count_named(ctx, s, depth - 1) or p.is_integer_valued(ctx, s) for s in sides)
-    name = expr.id if isinstance(expr, ast.Name) else expr.attr if isinstance(expr, ast.Attribute) else None
-    if name is None:
-        return False
-    words = name.lower().strip("_").split("_")
-    return (words[0] in _COUNT_FIRST or words[-1] in _COUNT_LAST) and words[-1] not in _FRACTION_LAST
 
 
 class LogOfOnePlus(Rule):

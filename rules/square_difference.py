@@ -2,9 +2,11 @@
 
 Each square carries a rounding error relative to its own size, x**2; when x and y are close the
 difference is far smaller than the squares and those errors dominate it: with y = x*(1 - 1e-8)
-about eight digits are lost. `1 - x*x` near |x| = 1 is the same loss; it is reported under a square
-root (sqrt(1 - c*c) for a sine, sqrt(1 - (v/c)**2) for a Lorentz factor), where it is usually
-evaluated near 1, and left alone in plain polynomials. The factored form
+about eight digits are lost. `1 - x*x` near |x| = 1 is the same loss; it is reported where its
+relative error reaches the result: under a root (sqrt(1 - c*c) for a sine), as a divisor or factor
+(s2 / (1 - phi**2) for an AR(1) variance, (1 - c*c) / (...) in a density), raised to a power or
+under a log. As one summand of a larger polynomial (`a + b*(1 - x*x)`) only its absolute error,
+below one unit of 1, reaches the sum, so it is left alone there. The factored form
 (x - y)*(x + y) subtracts the inputs themselves, which is exact when they are within a factor of
 two of each other (Sterbenz), so the result is accurate to a few units in the last place.
 For `1 - cos(t)**2` the identity sin(t)**2 is better still.
@@ -17,6 +19,7 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
+from auditor.counts import whole_or_count
 from auditor.elementary import (
     difference_operands, reads_variables, related, spelled_like, square_base, stable_origin,
 )
@@ -61,6 +64,30 @@ def under_root(ctx: Context, node: ast.AST) -> bool:
         and p.is_number(parent.right, 0.5)
 
 
+#: calls that pass the relative error of their argument on to their result
+_RELATIVE = frozenset({"sqrt", "cbrt", "log", "log10", "log2", "abs", "power", "pow", "square", "reciprocal"})
+
+
+def relative_position(ctx: Context, node: ast.AST) -> bool:
+    """True when the value's relative error reaches the enclosing expression's result: it is used
+    only through products, quotients, powers, negation and root/log calls up to the statement, not
+    as a summand of a larger sum (`b*(1 - x*x) + a` loses only an absolute error below eps)."""
+    while True:
+        parent = ctx.parent(node)
+        if isinstance(parent, ast.BinOp) and isinstance(parent.op, (ast.Mult, ast.Div, ast.MatMult)):
+            node = parent
+        elif isinstance(parent, ast.BinOp) and isinstance(parent.op, ast.Pow) and parent.left is node:
+            node = parent
+        elif isinstance(parent, ast.UnaryOp) and isinstance(parent.op, (ast.USub, ast.UAdd)):
+            node = parent
+        elif isinstance(parent, ast.Call) and ctx.family(parent) in _RELATIVE and parent.args and parent.args[0] is node:
+            node = parent
+        elif isinstance(parent, ast.BinOp):
+            return False  # a summand (or an operand of a comparison-like op): only the absolute error counts
+        else:
+            return True  # reached the statement, an argument, a subscript: the value is used as it is
+
+
 class SquareDifference(Rule):
     id = "square-difference"
     title = "difference of two squares"
@@ -88,6 +115,16 @@ class SquareDifference(Rule):
         Example("def f(xs):\n    return len(xs) ** 2 - 1\n", False, note="integer arithmetic is exact"),
         Example("import math\ndef test_corr():\n    r = 0.5\n    return math.sqrt(1 - r**2)\n", False,
                 note="a constant set two lines above: one fixed value (field trial)"),
+        Example("def ar1_variance(sigma2, phi):\n    return sigma2 / (1 - phi**2)\n", True,
+                note="a divisor: its relative error is the result's (field trial: AR(1) variance)"),
+        Example("import numpy as np\ndef wrapcauchy(x, c):\n    return (1 - c * c) / (2 * np.pi * (1 + c * c - 2 * c * np.cos(x)))\n",
+                True, note="a factor of a density near c = 1 (field trial)"),
+        Example("def smooth(u, a, b):\n    return a + b * (1 - u * u)\n", False,
+                note="one summand of a polynomial: only an absolute error below eps reaches the sum"),
+        Example("def mood_mean(m, N):\n    return m * (N * N - 1) / 12\n", False,
+                note="a quantity named as a count: its square is exact (field trial)"),
+        Example("import numpy as np\ndef adjust(n):\n    return (1 - np.sign(n - 2) ** 2) * 0.5\n", False,
+                note="sign() is -1, 0 or 1: integer arithmetic"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -97,13 +134,13 @@ class SquareDifference(Rule):
         x, y = base_of(ctx, ops.left, ops.left_written), base_of(ctx, ops.right, ops.right_written)
         if x is None or y is None or p.same_expr(x, y) or not (reads_variables(ctx, x) or reads_variables(ctx, y)):
             return
-        if (p.is_integer_valued(ctx, x) and p.is_integer_valued(ctx, y)) or from_reduction(ctx, x) or from_reduction(ctx, y):
+        if (whole_or_count(ctx, x) and whole_or_count(ctx, y)) or from_reduction(ctx, x) or from_reduction(ctx, y):
             return
         if p.constant_value(ctx, x) is not None and p.constant_value(ctx, y) is not None:
             return  # both sides are constants set in the code (r = 0.5 above): one fixed value, nothing to audit
         one = p.is_one(x) or p.is_one(y)
-        if one and pythagoras(ctx, x, y) is None and not under_root(ctx, node):
-            return  # 1 - x*x in a polynomial is common and harmless; under a root (a cosine, a Lorentz factor) it bites
+        if one and pythagoras(ctx, x, y) is None and not under_root(ctx, node) and not relative_position(ctx, node):
+            return  # 1 - x*x as a summand of a polynomial is harmless; as a factor, divisor or radicand it bites
         correlated = related(ctx, x, y) or related(ctx, ctx.origin(x), ctx.origin(y))
         rewrite: str | None = None
         imports: tuple[str, ...] = ()

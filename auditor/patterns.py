@@ -356,3 +356,49 @@ def in_raised_precision(ctx: Context, node: ast.AST) -> bool:
                 if name in _RAISED_PRECISION:
                     return True
     return False
+
+
+def int_bounds(ctx: Context, node: ast.AST, depth: int = 6) -> tuple[int | None, int | None]:
+    """(lowest, highest) value an integer expression can take as the code fixes it, None where open.
+
+    Literals, `min(3, n - i)` (at most 3), `k + 1` and `k - 1`, and a name whose every assignment
+    in the nearest scope that binds it is such (`nrep = 10`). A parameter is open even with a
+    default: a caller may pass any value.
+    """
+    if depth <= 0:
+        return None, None
+    v = literal_number(node)
+    if isinstance(v, int):
+        return v, v
+    if isinstance(node, ast.Name):
+        return _name_bounds(ctx, node, depth)
+    if isinstance(node, ast.UnaryOp) and isinstance(node.op, ast.USub):
+        lo, hi = int_bounds(ctx, node.operand, depth - 1)
+        return (None if hi is None else -hi), (None if lo is None else -lo)
+    if isinstance(node, ast.BinOp) and isinstance(node.op, (ast.Add, ast.Sub)):
+        (a_lo, a_hi), (b_lo, b_hi) = int_bounds(ctx, node.left, depth - 1), int_bounds(ctx, node.right, depth - 1)
+        if isinstance(node.op, ast.Sub):
+            b_lo, b_hi = (None if b_hi is None else -b_hi), (None if b_lo is None else -b_lo)
+        return (None if a_lo is None or b_lo is None else a_lo + b_lo), (None if a_hi is None or b_hi is None else a_hi + b_hi)
+    if isinstance(node, ast.Call) and isinstance(node.func, ast.Name) and node.func.id in ("min", "max") \
+            and len(node.args) > 1 and not node.keywords and not any(isinstance(a, ast.Starred) for a in node.args):
+        lows, highs = zip(*(int_bounds(ctx, a, depth - 1) for a in node.args))
+        known_lo, known_hi = [x for x in lows if x is not None], [x for x in highs if x is not None]
+        if node.func.id == "min":  # at most any one argument; at least the least of them when all are known
+            return (min(known_lo) if len(known_lo) == len(lows) else None), (min(known_hi) if known_hi else None)
+        return (max(known_lo) if known_lo else None), (max(known_hi) if len(known_hi) == len(highs) else None)
+    return None, None
+
+
+def _name_bounds(ctx: Context, name: ast.Name, depth: int) -> tuple[int | None, int | None]:
+    """Bounds over every assignment of `name` in the nearest scope that binds it (closures included)."""
+    scope = ctx.scope(name)
+    while not (bindings := ctx.flow(scope).of(name.id)):
+        if scope is ctx.tree:
+            return None, None
+        scope = ctx.scope(scope)
+    if any(b.kind not in ("assign", "unpack") or b.value is None for b in bindings):
+        return None, None
+    found = [int_bounds(ctx, b.value, depth - 1) for b in bindings if b.value is not None]
+    lows, highs = [lo for lo, _ in found], [hi for _, hi in found]
+    return (None if None in lows else min(lows)), (None if None in highs else max(highs))  # type: ignore[type-var]

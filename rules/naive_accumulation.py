@@ -5,8 +5,11 @@ n * eps * sum|v|: about 1e-10 relative after a million readings, and far worse w
 have mixed signs and the total is small. Pairwise summation (numpy's `np.sum` on contiguous
 float arrays) grows like log2(n) * eps, Kahan's compensated summation keeps the error near
 eps independent of n, and `math.fsum` returns the correctly rounded sum. Integer counters,
-short fixed loops, string or list building, series with a term recurrence or sign factor
-(the series rules report those) and accumulators never read after the loop are not flagged.
+short fixed loops (a range the code bounds by a small number), loops over groups (a function's
+`*args`, the bins of a tally, per-group partial sums), iterations whose total flows back into
+its own terms (Newton, optimisers), string or list building, series with a term recurrence or
+sign factor (the series rules report those) and accumulators never read after the loop are not
+flagged.
 """
 from __future__ import annotations
 
@@ -35,7 +38,7 @@ class Accumulation:
     stmt: ast.stmt
 
 
-def loop_statements(loop: ast.For) -> Iterator[ast.AST]:
+def loop_statements(loop: ast.For | ast.While) -> Iterator[ast.AST]:
     """Every node in the loop body, nested scopes excluded."""
     stack: list[ast.AST] = [*loop.body, *loop.orelse]
     while stack:
@@ -73,16 +76,86 @@ def rescaled_in_loop(loop: ast.For, name: str) -> bool:
     return False
 
 
-def short_fixed(loop: ast.For) -> bool:
-    """`for k in range(3)` or `for w in (a, b, c)`: too few additions to matter."""
+def short_fixed(ctx: Context, loop: ast.For) -> bool:
+    """`for k in range(3)`, `for w in (a, b, c)`, `range(1, min(3, n) + 1)`, `range(nrep)` after
+    `nrep = 10`: a length the code bounds by a small number, too few additions to matter."""
     it = loop.iter
     if isinstance(it, (ast.Tuple, ast.List, ast.Set)):
         return len(it.elts) <= _SHORT
-    if isinstance(it, ast.Call) and isinstance(it.func, ast.Name) and it.func.id == "range" and it.args:
-        bounds = [p.literal_number(a) for a in it.args[:2]]
-        if all(isinstance(b, int) for b in bounds):
-            return (bounds[-1] - (bounds[0] if len(bounds) == 2 else 0)) <= _SHORT  # type: ignore[operator]
+    if isinstance(it, ast.Call) and isinstance(it.func, ast.Name) and it.func.id == "range" and it.args \
+            and len(it.args) <= 3 and not it.keywords:
+        start = p.int_bounds(ctx, it.args[0])[0] if len(it.args) > 1 else 0
+        stop = p.int_bounds(ctx, it.args[min(1, len(it.args) - 1)])[1]
+        step = p.literal_number(it.args[2]) if len(it.args) == 3 else 1
+        if start is not None and stop is not None and isinstance(step, int) and step > 0:
+            return stop - start <= _SHORT  # a positive step only shortens the walk
     return False
+
+
+def walked(it: ast.expr) -> list[ast.expr]:
+    """The sequences a loop walks: `enumerate(x)` -> [x], `zip(a, b)` -> [a, b], `range(len(x))` -> [x]."""
+    if isinstance(it, ast.Call) and isinstance(it.func, ast.Name) and it.args:
+        name, first = it.func.id, it.args[0]
+        if name in ("enumerate", "reversed", "sorted", "list", "tuple", "iter"):
+            return [first]
+        if name == "zip":
+            return list(it.args)
+        if name == "range" and len(it.args) == 1 and isinstance(first, ast.Call) and isinstance(first.func, ast.Name) \
+                and first.func.id == "len" and len(first.args) == 1:
+            return [first.args[0]]
+    return [it]
+
+
+def group_loop(ctx: Context, loop: ast.For) -> bool:
+    """A loop over groups, not data items: the function's `*args` or a tally of categories (bins)."""
+    return any(few_items(ctx, seq, 5) for seq in walked(loop.iter))  # zip stops at its shortest
+
+
+def few_items(ctx: Context, node: ast.expr, depth: int) -> bool:
+    """`*args` (the groups written at a call site), `np.bincount(y)`, the counts of `np.unique`,
+    `np.histogram(x)[0]`, `Counter(x).values()`, or a comprehension over one of them, through locals."""
+    if depth <= 0:
+        return False
+    if isinstance(node, ast.Name):
+        b = ctx.binding(node)
+        scope = ctx.scope(node)
+        if b is not None and isinstance(scope, (ast.FunctionDef, ast.AsyncFunctionDef)) and b.stmt is scope.args.vararg:
+            return True
+        if b is not None and b.kind == "unpack" and b.value is None and isinstance(b.stmt, ast.Assign):
+            return _tally(ctx, b.stmt.value, _position(b.stmt.targets[0], node.id))
+        return b is not None and b.kind in ("assign", "unpack") and b.value is not None \
+            and few_items(ctx, b.value, depth - 1)
+    if isinstance(node, (ast.ListComp, ast.GeneratorExp, ast.SetComp)) and len(node.generators) == 1:
+        return few_items(ctx, node.generators[0].iter, depth - 1)
+    if isinstance(node, ast.Subscript) and isinstance(node.slice, ast.Constant) and isinstance(node.slice.value, int):
+        return _tally(ctx, ctx.origin(node.value), node.slice.value)
+    if isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute) and not node.args \
+            and node.func.attr in ("values", "keys", "items", "most_common"):
+        return _counter(ctx, ctx.origin(node.func.value))
+    return _counter(ctx, node) or isinstance(node, ast.Call) and ctx.family(node) == "bincount"
+
+
+def _position(target: ast.expr, name: str) -> int | None:
+    elts = target.elts if isinstance(target, (ast.Tuple, ast.List)) else []
+    return next((i for i, e in enumerate(elts) if isinstance(e, ast.Name) and e.id == name), None)
+
+
+def _counter(ctx: Context, node: ast.expr) -> bool:
+    return isinstance(node, ast.Call) and ctx.qualname(node.func) == "collections.Counter"
+
+
+def _tally(ctx: Context, call: ast.expr, index: int | None) -> bool:
+    """Item `index` of `np.histogram(...)` (counts, edges) or `np.unique(..., return_counts=True)`
+    (values and counts: one per category; the inverse map is as long as the data)."""
+    if not isinstance(call, ast.Call) or index is None:
+        return False
+    if ctx.family(call) == "histogram":
+        return True
+    flags = {k.arg: isinstance(k.value, ast.Constant) and k.value.value is True for k in call.keywords}
+    if ctx.family(call) != "unique" or not flags.get("return_counts"):
+        return False
+    parts = ["values"] + [f for f in ("return_index", "return_inverse", "return_counts") if flags.get(f)]
+    return index < len(parts) and parts[index] != "return_inverse"
 
 
 def loop_names(loop: ast.For) -> set[str]:
@@ -166,13 +239,40 @@ def moments_loop(loop: ast.For, accs: list[Accumulation]) -> bool:
     return any(p.is_square(a.term) is not None and ast.dump(p.is_square(a.term)) in terms for a in accs)  # type: ignore[arg-type]
 
 
-def scaled_reduction(ctx: Context, term: ast.expr) -> bool:
-    """`part.sum() / n`, `len(g) * xp.sum(d)`: a per-pass partial sum, scaled; the loop runs over groups."""
+def scaled_reduction(ctx: Context, term: ast.expr, varying: set[str]) -> bool:
+    """`part.sum() / n`, `len(g) * xp.sum(d)`, `sq[k] / n[k]` after `sq = [g.sum() ** 2 for g in groups]`:
+    a per-pass partial sum, scaled; the loop runs over groups."""
     while isinstance(term, ast.BinOp) and isinstance(term.op, (ast.Mult, ast.Div)):
-        if any(p.reduction(ctx, side) is not None or _namespace_sum(side) for side in (term.left, term.right)):
+        if any(group_sum(ctx, side, varying, 6) for side in (term.left, term.right)):
             return True
         term = term.left
-    return _namespace_sum(term)
+    return group_sum(ctx, term, varying, 6)
+
+
+def group_sum(ctx: Context, node: ast.expr, varying: set[str], depth: int) -> bool:
+    """A reduction over one group, maybe wrapped, squared or scaled; or the element, picked by the
+    loop, of a list built by a comprehension of such (`sums[k]` after `sums = [a.sum() for a in parts]`)."""
+    if depth <= 0:
+        return False
+    if p.reduction(ctx, node) is not None or _namespace_sum(node):
+        return True
+    if isinstance(node, ast.Call) and ctx.family(node) in ("asarray", "array", "abs", "sqrt", "square") and node.args:
+        return group_sum(ctx, node.args[0], varying, depth - 1)
+    if isinstance(node, ast.BinOp) and isinstance(node.op, (ast.Mult, ast.Div, ast.Pow)):
+        return group_sum(ctx, node.left, varying, depth - 1) or \
+            not isinstance(node.op, ast.Pow) and group_sum(ctx, node.right, varying, depth - 1)
+    if isinstance(node, ast.Subscript) and isinstance(node.value, ast.Name) and p.names_in(node.slice) & varying:
+        built = ctx.origin(node.value)
+        return isinstance(built, (ast.ListComp, ast.GeneratorExp)) and group_sum(ctx, built.elt, set(), depth - 1)
+    if isinstance(node, ast.Name):  # a comprehension variable: an element of the list it walks
+        for comp in ctx.ancestors(node):
+            if isinstance(comp, _NESTED):
+                break
+            gens = comp.generators if isinstance(comp, (ast.ListComp, ast.GeneratorExp, ast.SetComp)) else []
+            if len(gens) == 1 and isinstance(gens[0].target, ast.Name) and gens[0].target.id == node.id:
+                built = ctx.origin(gens[0].iter)
+                return isinstance(built, (ast.ListComp, ast.GeneratorExp)) and group_sum(ctx, built.elt, set(), depth - 1)
+    return False
 
 
 def _namespace_sum(node: ast.AST) -> bool:
@@ -181,18 +281,61 @@ def _namespace_sum(node: ast.AST) -> bool:
         and isinstance(node.func.value, ast.Name) and bool(node.args)
 
 
+def loop_dependencies(loop: ast.For | ast.While) -> dict[str, set[str]]:
+    """For each name the loop stores, the names its stored values read (`w[j] -= g` stores `w`)."""
+    deps: dict[str, set[str]] = {}
+    for node in loop_statements(loop):
+        if isinstance(node, ast.Assign):
+            targets, value = node.targets, node.value
+        elif isinstance(node, (ast.AugAssign, ast.AnnAssign)) and node.value is not None:
+            targets, value = [node.target], node.value
+        elif isinstance(node, ast.For):
+            targets, value = [node.target], node.iter
+        else:
+            continue
+        reads = p.names_in(value)
+        for name in (n for t in targets for n in stored_names(t)):
+            deps.setdefault(name, set()).update(reads)
+    return deps
+
+
+def stored_names(target: ast.expr) -> list[str]:
+    """`a, *b = ...` -> a, b; `w[j] = ...` -> w (an element store changes the array)."""
+    if isinstance(target, (ast.Tuple, ast.List)):
+        return [n for e in target.elts for n in stored_names(e)]
+    if isinstance(target, (ast.Starred, ast.Subscript)):
+        return stored_names(target.value) if isinstance(target.value, (ast.Name, ast.Starred, ast.Tuple)) else []
+    return [target.id] if isinstance(target, ast.Name) else []
+
+
+def feeds_back(ctx: Context, acc: Accumulation) -> bool:
+    """True when the total flows, through the assignments of the loops around it, into its own
+    terms: Newton's `x = x - f(x) / df(x)`, or an optimiser whose steps read the iterate."""
+    outer = ctx.enclosing_loops(acc.stmt)[-1]
+    deps = ctx.cached("naive-accumulation:deps", outer, lambda: loop_dependencies(outer))
+    seen, todo = set(), list(p.names_in(acc.term))
+    while todo:
+        name = todo.pop()
+        if name == acc.target:
+            return True
+        if name not in seen:
+            seen.add(name)
+            todo.extend(deps.get(name, ()))
+    return False
+
+
 def wanted(ctx: Context, loop: ast.For, acc: Accumulation) -> bool:
     if ctx.enclosing_loops(acc.stmt)[:1] != [loop]:
         return False  # reported on the loop that performs the addition
-    if acc.target in p.names_in(acc.term):
-        return False  # `x = x - f(x) / df(x)`: an iteration (Newton), not a running sum
+    if feeds_back(ctx, acc):
+        return False  # `x = x - f(x) / df(x)`, an optimiser step: an iteration, not a running sum
     init = initial_value(ctx, loop, acc.target)
     if isinstance(init, (ast.List, ast.Tuple, ast.Dict, ast.Set, ast.JoinedStr)) or \
             isinstance(init, ast.Constant) and isinstance(init.value, (str, bytes)):
         return False
     if ctx.family(init) in ("zeros", "zeros_like", "ones", "empty", "full") if isinstance(init, ast.Call) else False:
         return False  # an array of sums over a loop: compensating each element is not the cheap fix assumed here
-    if scaled_reduction(ctx, acc.term):
+    if scaled_reduction(ctx, acc.term, loop_names(loop)):
         return False
     floaty = isinstance(init, ast.Constant) and isinstance(init.value, float) or float_evident(ctx, acc.term)
     if not floaty or p.is_integer_valued(ctx, acc.term) or p.reduction(ctx, acc.term) is not None \
@@ -296,11 +439,40 @@ class NaiveAccumulation(Rule):
                 "    return res\n", False, note="field trial regression: a power of the loop index is a series term"),
         Example("def exp_series(x):\n    s, t = 0.0, 1.0\n    for k in range(1, 200):\n        s += t\n        t *= x / k\n"
                 "    return s\n", False, note="a series: the series rules decide"),
+        Example("def between_runs(*runs):\n    runs = [list(r) for r in runs]\n    peaks = [max(r) for r in runs]\n"
+                "    spread = 0.0\n    for k, _ in enumerate(runs):\n        spread += peaks[k] / len(runs[k])\n"
+                "    return spread\n", False, note="a loop over the function's *args runs over groups (field trial)"),
+        Example("def band(u, b, i, n):\n    width = min(3, n - i - 1)\n    acc = 0.0\n    for k in range(1, width + 1):\n"
+                "        acc -= u[i + k] * b[i + k] / 2.0\n    return acc\n", False,
+                note="the range stop is at most min(3, ...) + 1: a short fixed loop (field trial)"),
+        Example("def fit_offset(samples, rate, slope):\n    offset = 0.0\n    grad_sum = 0.0\n"
+                "    for n, (x, y) in enumerate(samples, 1):\n        g = slope(x + offset, y)\n        grad_sum += g\n"
+                "        offset -= rate * grad_sum / n\n    return offset\n", False,
+                note="an optimiser: the totals flow back into their own steps, an iteration (field trial)"),
+        Example("def false_share(draw):\n    nrep = 10\n    share = 0.0\n    for _ in range(nrep):\n"
+                "        wrong, picked = draw()\n        share += wrong / max(picked, 1)\n    return share / nrep\n", False,
+                note="the range stop is a local constant: a short fixed loop (field trial)"),
+        Example("import numpy as np\ndef label_entropy(labels):\n    n = len(labels)\n    h = 0.0\n"
+                "    for count in np.bincount(labels):\n        q = count / n\n        if q > 0:\n"
+                "            h -= q * np.log2(q)\n    return h\n", False,
+                note="a loop over the bins of a tally runs over classes, not data items (field trial)"),
+        Example("def dose(rate, t0, dt, n):\n    t = t0\n    total = 0.0\n    for _ in range(n):\n        t += dt\n"
+                "        total += rate(t) * dt\n    return total\n", True,
+                note="a carried grid coordinate that does not depend on the total: still a long sum"),
+        Example("def scatter(xs, m):\n    s = 0.0\n    for x in xs:\n        d = x - m\n        s += d * d / 2.0\n"
+                "    return s\n", True, note="per-pass temporaries are not a recurrence"),
+        Example("import numpy as np\ndef between(bays):\n    sums = [np.asarray(b.sum(axis=0)) for b in bays]\n"
+                "    squares = [s ** 2 for s in sums]\n    sizes = [len(b) for b in bays]\n    ss = 0.0\n"
+                "    for k in range(len(bays)):\n        ss += squares[k] / sizes[k]\n    return ss\n", False,
+                note="the term is a squared per-group sum built by comprehensions: a loop over groups (field trial)"),
+        Example("import numpy as np\ndef entropy(counts):\n    total = counts.sum()\n    h = 0.0\n    for c in counts:\n"
+                "        h -= (c / total) * np.log(c / total)\n    return h\n", True,
+                note="items scaled by one grand total are still one addition per item"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
         assert isinstance(node, ast.For)
-        if short_fixed(node):
+        if short_fixed(ctx, node) or group_loop(ctx, node):
             return
         accs = accumulations(node)
         if moments_loop(node, accs):

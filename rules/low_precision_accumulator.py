@@ -7,6 +7,13 @@ digit, and once the total is 2**24 times a term (16.7 million in float32, 2048 i
 adding it changes nothing at all. `np.cumsum` is sequential; `np.sum` is pairwise but still
 rounds every partial sum to the low format. Storing data in float32 is fine; accumulate it in
 float64 (`dtype=np.float64` on the reduction or the accumulator).
+
+Not reported: numpy's `mean`/`average` of float16 data with no `dtype=`, which numpy accumulates
+in float32 and rounds once to float16 (the accumulation error stays far below that final
+rounding); `math.fsum` and `statistics.mean`/`fmean`, which sum exactly; and reductions over
+arrays the source spells out element by element (a scalar or a literal list of at most 16
+numbers), where n terms cost at most n - 1 roundings, under one decimal digit beyond storing
+the inputs in that format.
 """
 from __future__ import annotations
 
@@ -23,6 +30,15 @@ _LOW_STRINGS = {"float32": "float32", "f4": "float32", "<f4": "float32", "single
 _REDUCTIONS = ("sum", "cumsum", "mean", "nansum", "nanmean", "average")
 _ALLOCATORS = ("zeros", "zeros_like", "full", "full_like", "empty", "array", "asarray", "float32", "float16")
 _TORCH_CASTS = {"half": "float16", "bfloat16": "bfloat16", "float": "float32"}
+#: numpy's _methods._mean sums float16 input in a float32 accumulator when no dtype is given (from memory)
+_WIDENING_MEANS = ("mean", "average")
+#: reductions that never round partial sums: fsum is correctly rounded, statistics.mean sums exact fractions
+_EXACT_SUMS = ("math.fsum", "statistics.mean", "statistics.fmean")
+#: at most this many terms: n - 1 roundings stay under one decimal digit beyond the inputs' own rounding
+_FEW_TERMS = 16
+_SPELLED_OUT = ("array", "asarray", "asanyarray", "ascontiguousarray", "float32", "float16", "half", "single", "tensor")
+_SHAPED = ("zeros", "ones", "full", "empty")
+_SAME_SIZE = ("astype", "copy", "ravel", "flatten", "reshape", "to", "half", "float", "bfloat16")
 
 
 def low_dtype(ctx: Context, expr: ast.AST | None) -> str | None:
@@ -71,6 +87,50 @@ def low_array(ctx: Context, expr: ast.expr, depth: int = 3) -> tuple[str, str] |
         fmt = low_dtype(ctx, kw.value)
         return (fmt, dtype_library(ctx, kw.value)) if fmt else None
     return None
+
+
+def literal_count(ctx: Context, expr: ast.AST, depth: int = 4) -> int | None:
+    """How many elements an array holds when the source spells it out: 1.0, [1.0, 2.0], np.array(...) of those."""
+    if isinstance(expr, ast.Name):
+        origin = ctx.origin(expr)
+        return None if origin is expr or depth <= 0 else literal_count(ctx, origin, depth - 1)
+    if p.literal_number(expr) is not None:
+        return 1
+    if isinstance(expr, (ast.List, ast.Tuple)):
+        counts = [literal_count(ctx, e, depth) for e in expr.elts]
+        return sum(c for c in counts if c is not None) if None not in counts else None
+    if not isinstance(expr, ast.Call) or depth <= 0:
+        return None
+    func = expr.func
+    if isinstance(func, ast.Attribute) and ctx.qualname(func) is None and func.attr in _SAME_SIZE:
+        return literal_count(ctx, func.value, depth - 1)
+    fam = ctx.family(expr)
+    if fam in _SPELLED_OUT and expr.args:
+        return literal_count(ctx, expr.args[0], depth - 1)
+    if fam in _SHAPED and expr.args:
+        return shape_count(expr.args[0])
+    return None
+
+
+def shape_count(shape: ast.AST) -> int | None:
+    """The element count of a literal shape: 3 or (2, 3)."""
+    dims = shape.elts if isinstance(shape, (ast.Tuple, ast.List)) else [shape]
+    total = 1
+    for d in dims:
+        v = p.literal_number(d)
+        if not isinstance(v, int) or v < 0:
+            return None
+        total *= v
+    return total
+
+
+def widened_accumulator(ctx: Context, node: ast.Call, fmt: str, library: str) -> bool:
+    """numpy's mean/average of float16 with no dtype: summed in float32, rounded once to float16 (from memory)."""
+    if fmt != "float16" or library != "numpy" or dtype_keyword(node) is not None:
+        return False
+    qual = ctx.qualname(node.func)
+    name = qual.rpartition(".")[2] if qual else node.func.attr if isinstance(node.func, ast.Attribute) else None
+    return name in _WIDENING_MEANS  # by name: nanmean keeps a float16 accumulator
 
 
 def accumulator_init(ctx: Context, expr: ast.AST) -> str | None:
@@ -161,6 +221,23 @@ class LowPrecisionAccumulator(Rule):
         Example("import numpy as np\ndef store(xs):\n    buf = np.zeros(len(xs), dtype=np.float32)\n"
                 "    for i, v in enumerate(xs):\n        buf[i] = v\n    return buf\n", False, note="storage, not a sum"),
         Example("import numpy as np\ndef peak(x):\n    return x.astype(np.float32).max()\n", False),
+        Example("import numpy as np\ndef gains():\n    g = np.array([0.97, 0.97, 2.0e-8, 2.0e-8, 2.0e-8, 2.0e-8], dtype=np.float32)\n"
+                "    return g / g.sum()\n", False,
+                note="six numbers spelled out in the source: five roundings, no worse than storing them (field trial)"),
+        Example("import numpy as np\nGAIN = np.array(1.0, ndmin=2, dtype=np.float32)\nnp.mean(GAIN)\n", False,
+                note="an array built from one scalar literal has one element: nothing accumulates (field trial)"),
+        Example("import numpy as np\ndef level(trace):\n    h = trace.astype(np.float16)\n    return h.mean()\n", False,
+                note="numpy's mean of float16 sums in a float32 accumulator and rounds once to float16 (field trial)"),
+        Example("import numpy as np\ndef level(trace):\n    return np.nanmean(trace.astype(np.float16))\n", True,
+                note="nanmean does not widen: it sums float16 in float16"),
+        Example("import numpy as np\ndef level(trace):\n    return trace.astype(np.float16).mean(dtype=np.float16)\n", True,
+                "trace.astype(np.float16).mean(dtype=np.float64)", note="an explicit float16 dtype is the accumulator"),
+        Example("import numpy as np\ndef ramp():\n    x = np.full(4000, 0.1, dtype=np.float32)\n    return x.sum()\n", True,
+                "x.sum(dtype=np.float64)", note="a literal shape of 4000 elements is not a handful of terms"),
+        Example("import math\nimport numpy as np\ndef total(x):\n    return math.fsum(x.astype(np.float32))\n", False,
+                note="fsum rounds once, whatever the input format"),
+        Example("import numpy as np\ndef centre(x):\n    return np.average(x.astype(np.float32), axis=0)\n", True,
+                note="np.average takes no dtype argument, so no rewrite is offered"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -191,11 +268,15 @@ class LowPrecisionAccumulator(Rule):
             fmt, library = low_dtype(ctx, kw.value), dtype_library(ctx, kw.value)
         else:
             fmt, library = low_array(ctx, data) or (None, "numpy")
-        if fmt is None:
+        if fmt is None or ctx.qualname(node.func) in _EXACT_SUMS or widened_accumulator(ctx, node, fmt, library):
             return
+        count = literal_count(ctx, data)
+        if count is not None and count <= _FEW_TERMS:
+            return  # a handful of spelled-out numbers: the sum is as good as the inputs' own rounding
         builtin = isinstance(node.func, ast.Name) and ctx.qualname(node.func) is None
         module = p.callee_module(ctx, node) or library
-        rewrite, imports = (None, ()) if builtin else with_float64_dtype(ctx, node, module)
+        takes_dtype = not (ctx.qualname(node.func) or "").endswith(".average")  # np.average has no dtype argument
+        rewrite, imports = with_float64_dtype(ctx, node, module) if takes_dtype and not builtin else (None, ())
         strong = fmt != "float32" or kind == "cumsum" or builtin
         how = "sequentially" if kind == "cumsum" or builtin else "pairwise"
         yield Hit(node, f"this {kind} accumulates {how} in {fmt}, keeping at most {self._digits(fmt)} significant digits "

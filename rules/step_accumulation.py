@@ -5,7 +5,11 @@ t carries an error that grows like k * eps * |t|: adding 0.1 ten times gives
 0.9999999999999999, a loop `while t < 1.0` then runs one step too many, and long runs put
 sample times visibly off the grid. Computing t from the step count, t = t0 + k * dt, makes
 one rounding per value, independent of k. Integer steps, steps that are exact binary
-fractions (0.5, 0.25) and data-dependent increments are not flagged.
+fractions (0.5, 0.25) and data-dependent increments are not flagged. A value is taken to be an
+integer when it is a slice bound (`a[:n]` raises on a float) or an element of a shape tuple;
+date steps (`timedelta`) count whole microseconds and are exact. A value that the loop also
+advances by other amounts (`pos -= title_gap` beside `pos -= row_step`) is a running sum of
+mixed increments, not a grid: no t0 + k*dt exists to compute it from.
 """
 from __future__ import annotations
 
@@ -20,6 +24,10 @@ from auditor.nodes import children
 _NESTED = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)
 #: names that say "this is a step or a clock" when no value is visible
 _STEP_NAME = re.compile(r"^(d[a-z]{1,5}(_[a-z0-9]+)?|h|h_[a-z0-9]+|step|.*_step|step_.*|tstep|delta|delta_.*|increment|spacing)$")
+#: shape tuples hold ints (`x.shape`, `grid_shape`, `shape`)
+_SHAPE_NAME = re.compile(r"^(shape|.*_shape|shape_.*)$")
+#: date and time steps are whole counts of a unit (microseconds, nanoseconds): exact
+_DATE_STEPS = ("datetime.timedelta", "numpy.timedelta64", "pandas.Timedelta", "pandas.DateOffset")
 _CLOCK_NAME = re.compile(r"^(t|time|.*_time|time_.*|elapsed|clock|now|t_.*|.*_t|epoch_t)$")
 
 
@@ -72,6 +80,70 @@ def integer_start(ctx: Context, loop: ast.For | ast.While, target: ast.expr) -> 
     before = [b for b in ctx.flow(ctx.scope(loop)).of(target.id) if (b.line, b.column) < (loop.lineno, loop.col_offset)]
     return bool(before) and before[-1].kind == "assign" and before[-1].value is not None \
         and p.is_integer_literal(before[-1].value)
+
+
+def slice_bound(scope: ast.AST, key: str) -> bool:
+    """True when `key` is read in a slice bound (`a[:n]`, `a[j*n:(j+1)*n]`): lists and arrays accept only ints there."""
+    for node in ast.walk(scope):
+        if isinstance(node, ast.Slice):
+            for bound in (node.lower, node.upper, node.step):
+                if bound is not None and key in _integer_arithmetic_names(bound):
+                    return True
+    return False
+
+
+def _integer_arithmetic_names(expr: ast.AST) -> set[str]:
+    """Names (as source text) combined only by + - * // % with other names and int literals."""
+    if isinstance(expr, (ast.Name, ast.Attribute)):
+        return {ast.unparse(expr)}
+    if isinstance(expr, ast.BinOp) and isinstance(expr.op, (ast.Add, ast.Sub, ast.Mult, ast.FloorDiv, ast.Mod)):
+        return _integer_arithmetic_names(expr.left) | _integer_arithmetic_names(expr.right)
+    if isinstance(expr, ast.UnaryOp) and isinstance(expr.op, ast.USub):
+        return _integer_arithmetic_names(expr.operand)
+    return set()
+
+
+def shape_element(ctx: Context, step: ast.expr) -> bool:
+    """`for dim in x.shape` / `for k, dim in enumerate(grid_shape)`: the step is one entry of a shape tuple."""
+    b = ctx.binding(step) if isinstance(step, ast.Name) else None
+    if b is None or b.kind != "loop" or not isinstance(b.stmt, (ast.For, ast.comprehension)):
+        return False
+    loop, it = b.stmt, b.stmt.iter
+    if isinstance(it, ast.Call) and ctx.qualname(it.func) is None and isinstance(it.func, ast.Name) \
+            and it.func.id == "enumerate" and it.args:
+        elts = loop.target.elts if isinstance(loop.target, ast.Tuple) else []
+        if len(elts) != 2 or not isinstance(elts[1], ast.Name) or elts[1].id != step.id:
+            return False
+        it = it.args[0]
+    elif not (isinstance(loop.target, ast.Name) and loop.target.id == step.id):
+        return False
+    name = it.attr if isinstance(it, ast.Attribute) else it.id if isinstance(it, ast.Name) else ""
+    return bool(_SHAPE_NAME.match(name))
+
+
+def integer_typed(ctx: Context, scope: ast.AST, target: ast.expr, step: ast.expr) -> bool:
+    """The code itself says the clock or its step is an int (or an exact date step)."""
+    if shape_element(ctx, step) or slice_bound(scope, ast.unparse(step)) or slice_bound(scope, ast.unparse(target)):
+        return True
+    origin = ctx.origin(step)
+    return isinstance(origin, ast.Call) and ctx.qualname(origin.func) in _DATE_STEPS
+
+
+def mixed_increments(loop: ast.For | ast.While, stmt: ast.stmt, target: ast.expr, step: ast.expr) -> bool:
+    """True when the loop also moves the value by a different amount (or scales it): a running sum, not a grid."""
+    key, amount = ast.unparse(target), ast.unparse(step)
+    for node in body_nodes(loop):
+        if node is stmt or not isinstance(node, (ast.AugAssign, ast.Assign)):
+            continue
+        targets = node.targets if isinstance(node, ast.Assign) else [node.target]
+        if key not in {ast.unparse(t) for t in targets}:
+            continue
+        other = step_update(node)
+        if other is not None and ast.unparse(other[1]) == amount:
+            continue  # the same step, maybe the other direction (`pos -= dpos` / `pos += dpos`)
+        if isinstance(node, ast.AugAssign) or any(ast.unparse(n) == key for n in ast.walk(node.value)):
+            return True  # a second increment, or the old value rescaled; plain resets are a new t0
+    return False
 
 
 def drifting_step(ctx: Context, target: ast.expr, step: ast.expr) -> bool:
@@ -184,6 +256,22 @@ class StepAccumulation(Rule):
         Example("def pages(table, max_lines, n_header, keys):\n    delta_lines = max_lines - n_header\n    i0 = 0\n"
                 "    for key in keys:\n        print(table[i0:i0 + delta_lines])\n        i0 += delta_lines\n", False,
                 note="field trial regression: an integer row index"),
+        Example("def layout(ax, groups, top, bottom, title_gap, n_rows):\n    row_step = (top - bottom) / n_rows\n"
+                "    y = top\n    for g in groups:\n        y -= title_gap\n        for label in g:\n"
+                "            ax.text(0.0, y, label)\n            y -= row_step\n", False,
+                note="also moved by a second amount: a running sum of mixed increments, no t0 + k*dt (field trial)"),
+        Example("def sweep(n, lo, hi, up):\n    dy = (hi - lo) / n\n    y = lo\n    for i in range(n):\n        if up:\n"
+                "            y += dy\n        else:\n            y -= dy\n        print(y)\n", True,
+                note="the same step in either direction is still a clock"),
+        Example("def extent(arr, origin, reps):\n    for k, dim in enumerate(arr.shape):\n        edge = origin\n"
+                "        for r in range(reps):\n            edge += dim\n            print(k, edge)\n", False,
+                note="an entry of a shape tuple is an int (field trial)"),
+        Example("def windows(signal, first, dlen, n):\n    out = []\n    stop = first\n    for i in range(n):\n"
+                "        stop += dlen\n        out.append(signal[first:stop])\n    return out\n", False,
+                note="a slice bound must be an int, so the sum is exact (field trial)"),
+        Example("import datetime\ndef stamps(start, n):\n    t = start\n    step = datetime.timedelta(minutes=5)\n"
+                "    out = []\n    for i in range(n):\n        out.append(t)\n        t += step\n    return out\n", False,
+                note="a timedelta counts whole microseconds: exact"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -202,6 +290,8 @@ class StepAccumulation(Rule):
         if p.constant_value(ctx, step) is None and integer_start(ctx, loops[-1], target):
             return  # `i0 = 0 ... i0 += delta`: an integer position stepped by an unknown (integer) amount
         if not drifting_step(ctx, target, step) or not read_elsewhere(ctx, node, target):
+            return
+        if integer_typed(ctx, ctx.scope(node), target, step) or mixed_increments(loops[-1], node, target, step):
             return
         loop = loops[0]
         rewrite = counted_text(ctx, node, loop, target, step, subtract)

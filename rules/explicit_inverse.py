@@ -7,7 +7,11 @@ ill-conditioned A (cond near 1e10, common with nearly collinear columns or fine 
 inverse route can lose several more digits than `solve(A, b)`, which factors A once and
 substitutes. A pseudo-inverse product `pinv(A) @ b` is a least-squares solve in disguise; an
 SVD-based lstsq computes the same minimum-norm solution without forming pinv(A).
-An inverse that is itself the goal (a covariance matrix returned to the caller) is not flagged.
+An inverse that is itself the goal (a covariance matrix returned to the caller) is not flagged, nor a
+sandwich A^-1 M A^-1 with one inverse on both sides (a robust covariance: every column of it needs the
+inverse, so solves gain nothing), nor a pseudo-inverse the function also keeps as a value of its own
+(then lstsq would be a second SVD). An inverse kept as a value and also applied to a right-hand side is
+a note: the inverse costs nothing extra, but its product is still not backward stable as a solve is.
 """
 from __future__ import annotations
 
@@ -17,18 +21,11 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
 from auditor.copies import data_source
+from auditor.inverse_use import inverted, kept_as_value, two_sided
 from auditor.nodes import walk
 
 #: linear-algebra modules that offer `solve` and `lstsq` with numpy's meaning
 _SOLVERS = ("numpy.linalg", "scipy.linalg", "jax.numpy.linalg", "torch.linalg", "cupy.linalg")
-
-
-def inverted(ctx: Context, expr: ast.expr) -> tuple[str, ast.Call] | None:
-    """('inv' | 'pinv', call) when `expr` (or the local it names) is inv(A) / pinv(A)."""
-    origin = ctx.origin(expr)
-    if isinstance(origin, ast.Call) and ctx.family(origin) in ("inv", "pinv") and p.single_arg(origin) is not None:
-        return str(ctx.family(origin)), origin
-    return None
 
 
 _REPEATS = (ast.For, ast.While, ast.GeneratorExp, ast.ListComp, ast.SetComp, ast.DictComp)
@@ -163,6 +160,24 @@ class ExplicitInverse(Rule):
                 "    return np.linalg.inv(a) @ b\n", True, note="copies of different data are still a solve"),
         Example("import numpy as np\ndef f(a0):\n    a = a0.copy()\n    a[0, 0] = 1e-3\n"
                 "    return np.linalg.inv(a) @ a0\n", True, note="a copy changed in place holds different data"),
+        Example("import numpy as np\ndef robust_cov(h, meat, n):\n    bread = np.linalg.inv(h)\n"
+                "    return bread @ meat @ bread / n\n", False,
+                note="a sandwich covariance with one inverse on both sides (field trial)"),
+        Example("import numpy as np\ndef covs(b, c, scale):\n    bi = np.linalg.inv(b)\n    naive = bi * scale\n"
+                "    robust = np.dot(np.dot(bi, np.dot(c, c.T)), bi)\n    return naive, robust\n", False,
+                note="a sandwich spelled with nested dot calls (field trial)"),
+        Example("import numpy as np\ndef fit(xpx, xpy, xx):\n    xpxi = np.linalg.pinv(xpx)\n"
+                "    params = xpxi.dot(xpy)\n    return params, xpxi.dot(xx).dot(xpxi), xpxi\n", False,
+                note="a pseudo-inverse kept as a covariance anyway is not formed to apply once (field trial)"),
+        Example("import numpy as np\ndef f(h, meat, b):\n    bread = np.linalg.inv(h)\n"
+                "    return bread @ meat @ bread @ b\n", True, note="a sandwich applied to a vector is a solve"),
+        Example("import numpy as np\ndef f(c, r):\n    ci = np.linalg.inv(c)\n"
+                "    return ci @ np.outer(r, r) @ ci\n", True, note="a rank-one middle: (C^-1 r)(C^-1 r)^T, one solve"),
+        Example("import numpy as np\ndef f(a, b, c):\n    ap = np.linalg.pinv(a)\n    return ap @ b, ap.T @ c\n",
+                True, note="a pseudo-inverse used only in products is still a least-squares solve"),
+        Example("import numpy as np\ndef wald(r, c, masked, nan_dot):\n    ci = np.linalg.pinv(c)\n"
+                "    if masked:\n        return nan_dot(nan_dot(r.T, ci), r)\n    return np.dot(np.dot(r.T, ci), r)\n",
+                True, note="a product helper named for dot multiplies: the inverse is not kept as a value"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -183,8 +198,12 @@ class ExplicitInverse(Rule):
                 return  # inv(A) @ triu(A): a test of the inverse against its own matrix
             if _sandwich(ctx, node, factors[index]):
                 return  # P @ M @ P.T with P an inverse: a congruence whose factors are the goal
+            if two_sided(ctx, node, factors[index]):
+                return  # A^-1 M A^-1: a sandwich covariance, the inverse is part of the goal
             if kind == "pinv" and _reused(ctx, node, call):
                 return  # pinv(A) applied to every item of a loop: computed once, used many times
+            if kind == "pinv" and kept_as_value(ctx, factors[index], node):
+                return  # pinv(A) kept as a value anyway: not formed to apply once, lstsq is a second SVD
             rewrite, imports = solve_text(ctx, kind, call, rhs, left=index == 0)
             yield self._hit(ctx, node, kind, factors[index], rewrite, imports)
             return
@@ -197,6 +216,10 @@ class ExplicitInverse(Rule):
             return Hit(node, f"multiplying by a pseudo-inverse forms pinv(A) only to apply it once; use {fix}, "
                        "which gives the same minimum-norm solution from one SVD", severity=Severity.NOTE,
                        rewrite=rewrite, imports=imports)
+        if kept_as_value(ctx, holder, node):
+            return Hit(node, f"the inverse is kept as a value anyway, but its product with a right-hand side is not "
+                       f"backward stable and can lose up to log10(cond(A)) digits that {fix} keeps",
+                       severity=Severity.NOTE, rewrite=rewrite, imports=imports)
         shared = used_elsewhere(ctx, holder, node)
         return Hit(node, f"applying an explicit inverse loses up to log10(cond(A)) digits beyond a backward-stable "
                    f"solve and costs about 3x the work; use {fix}",

@@ -346,7 +346,9 @@ _RAISED_PRECISION = ("workdps", "workprec", "extradps", "extraprec")
 
 
 def in_raised_precision(ctx: Context, node: ast.AST) -> bool:
-    """True inside `with mp.workdps(n):` (and kin): arbitrary-precision code, not double arithmetic."""
+    """True inside `with mp.workdps(n):` (and kin), or inside a lambda handed to a call that sets the
+    precision it runs at (`check(f, lambda x: mpmath.log(x + 1), dps=60)`): arbitrary-precision code."""
+    inside_lambda = None
     for anc in ctx.ancestors(node):
         if isinstance(anc, (ast.With, ast.AsyncWith)):
             for item in anc.items:
@@ -355,7 +357,16 @@ def in_raised_precision(ctx: Context, node: ast.AST) -> bool:
                 name = func.attr if isinstance(func, ast.Attribute) else func.id if isinstance(func, ast.Name) else ""
                 if name in _RAISED_PRECISION:
                     return True
+        if isinstance(anc, ast.Lambda) and inside_lambda is None:
+            inside_lambda = anc
+        if inside_lambda is not None and isinstance(anc, ast.Call) and inside_lambda in anc.args \
+                and any(k.arg in _PRECISION_KEYWORDS for k in anc.keywords):
+            return True
     return False
+
+
+#: keywords through which a checking harness sets the precision of the functions it is handed
+_PRECISION_KEYWORDS = ("dps", "prec", "mp_dps", "working_dps")
 
 
 def int_bounds(ctx: Context, node: ast.AST, depth: int = 6) -> tuple[int | None, int | None]:

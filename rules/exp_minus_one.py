@@ -16,6 +16,7 @@ from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
 from auditor import polyrange
+from auditor.values import known_values
 
 #: |u| from which exp(u) - 1 is left alone. Near u = 0 the subtraction magnifies the relative
 #: error of exp(u) by |e^u / (e^u - 1)|, about 1/|u|, so it loses about log10(1/|u|) digits;
@@ -37,7 +38,11 @@ def exp_argument(ctx: Context, expr: ast.expr) -> tuple[ast.expr, ast.Call] | No
 
 
 def stays_away_from_zero(ctx: Context, exponent: ast.expr) -> bool:
-    """True when `exponent` is a one-variable literal polynomial with |u| >= _SAFE_EXPONENT for every real value."""
+    """True when `exponent` is a one-variable literal polynomial with |u| >= _SAFE_EXPONENT for every real
+    value, or takes only values the code spells out (constants, literal arrays), all that far from 0."""
+    values = known_values(ctx, exponent)
+    if values is not None:
+        return min(abs(v) for v in values) >= _SAFE_EXPONENT
     return polyrange.distance_from_zero(exponent, ctx.origin) >= _SAFE_EXPONENT
 
 
@@ -50,6 +55,9 @@ def compound_stays_away(ctx: Context, r: ast.expr, n: ast.expr) -> bool:
     exponent = p.literal_number(n)
     if not isinstance(exponent, (int, float)) or exponent == 0:
         return False
+    values = known_values(ctx, r)
+    if values is not None and all(v > -1 for v in values):
+        return min(abs(exponent * math.log1p(v)) for v in values) >= _SAFE_EXPONENT
     return polyrange.distance_from_zero(r, ctx.origin) >= math.expm1(_SAFE_EXPONENT / abs(exponent))
 
 
@@ -124,6 +132,10 @@ class ExpMinusOne(Rule):
         Example("import numpy as np\ndef bump(z):\n    return 1 - np.exp(-0.5 * (z - 2.0) ** 2)\n", True,
                 "-np.expm1(-0.5 * (z - 2.0) ** 2)", {"z": 2.0 + 1e-6},
                 note="a quadratic exponent with a real root (z = 2) still cancels there"),
+        Example("from math import pi, sqrt\ndef test_alg_weight():\n    a = 1.5\n    return pi / sqrt((1 + 2**(-a))**2 - 1)\n",
+                False, note="a constant set in the code: r = 0.35, nothing cancels (field trial)"),
+        Example("import numpy as np\ndef test_decay():\n    t = np.array([1e-9, 2.0])\n    return 1 - np.exp(-t)\n", True,
+                note="spelled out, but one exponent is tiny"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:

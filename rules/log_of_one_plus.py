@@ -18,7 +18,11 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
 from auditor.counts import count_named
+from auditor.positions import seeds_iteration
+from auditor.values import known_values
 
+#: |x| at or above this keeps log(1 + x) within about one digit of log1p(x) (the loss is log10(1/|x|) digits)
+_SAFE = 0.1
 _HAS_LOG1P = ("math", "numpy", "scipy.special", "mpmath", "torch", "jax.numpy", "cupy")
 
 
@@ -35,6 +39,9 @@ def one_plus(ctx: Context, expr: ast.expr) -> tuple[ast.expr, bool] | None:
         return None
     if not p.has_free_names(other) or p.is_integer_valued(ctx, other) or counts(ctx, other) or count_named(ctx, other):
         return None
+    values = known_values(ctx, other)
+    if values is not None and min(abs(v) for v in values) >= _SAFE:
+        return None  # the code spells out every x, none small: 1 + x rounds away less than a digit of it
     return other, negated
 
 
@@ -83,12 +90,28 @@ class LogOfOnePlus(Rule):
                 note="a quantity named as a count"),
         Example("import numpy as np\ndef growth(n_rate, n_obs):\n    return np.log(1 + n_rate) - np.log(1 + n_obs * 0.01)\n",
                 True, note="a rate is a fraction, and a count times a fraction is not a count"),
+        Example("import numpy as np\ndef test_logser():\n    p, loc = 0.3, 3\n    return p / (p - 1.0) / np.log(1.0 - p)\n",
+                False, note="a constant set in the code, far from 0 (field trial)"),
+        Example("import numpy as np\ndef test_msle():\n    y = np.array([[0.5, 1], [1, 2], [7, 6]])\n    return np.log(1 + y)\n",
+                False, note="a literal array, every entry far from 0 (field trial)"),
+        Example("import numpy as np\ndef test_fit():\n    def mle(x):\n        return np.log(1 - x).sum()\n"
+                "    x = np.array([0.125, 0.25, 0.5])\n    return mle(x), mle(1 - x)\n", False,
+                note="a nested helper whose every call passes literal arrays (field trial)"),
+        Example("import numpy as np\ndef test_tiny():\n    x = np.array([1e-12, 0.5])\n    return np.log(1 + x)\n", True,
+                note="spelled out, but one entry is tiny"),
+        Example("import mpmath\ndef test_log1pmx(check, f):\n    check(f, lambda x: mpmath.log(x + 1) - x, dps=60)\n",
+                False, note="a reference handed to a harness that runs it at 60 digits (field trial)"),
+        Example("import numpy as np\ndef fit(model, y, x):\n    start = np.linalg.lstsq(x, np.log(y + 1), rcond=None)[0]\n"
+                "    return model(y, x).fit(start_params=start)\n", False,
+                note="a starting point for an iterative fit: its low digits never reach the answer (field trial)"),
+        Example("import numpy as np\ndef fit(model, y, x):\n    z = np.log(y + 1)\n    return model(z, x).fit(start_params=None)\n",
+                True, note="the transformed data themselves, not a starting point"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
         assert isinstance(node, ast.Call)
-        if ctx.family(node) != "log" or p.in_raised_precision(ctx, node):
-            return
+        if ctx.family(node) != "log" or p.in_raised_precision(ctx, node) or seeds_iteration(ctx, node):
+            return  # arbitrary precision, or a starting point whose low digits never reach the answer
         arg = p.single_arg(node)
         found = one_plus(ctx, arg) if arg is not None else None
         if found is None:

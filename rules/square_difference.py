@@ -20,6 +20,8 @@ from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
 from auditor.counts import whole_or_count
+from auditor.positions import relative_position
+from auditor.values import known_values
 from auditor.elementary import (
     difference_operands, reads_variables, related, spelled_like, square_base, stable_origin,
 )
@@ -64,28 +66,17 @@ def under_root(ctx: Context, node: ast.AST) -> bool:
         and p.is_number(parent.right, 0.5)
 
 
-#: calls that pass the relative error of their argument on to their result
-_RELATIVE = frozenset({"sqrt", "cbrt", "log", "log10", "log2", "abs", "power", "pow", "square", "reciprocal"})
-
-
-def relative_position(ctx: Context, node: ast.AST) -> bool:
-    """True when the value's relative error reaches the enclosing expression's result: it is used
-    only through products, quotients, powers, negation and root/log calls up to the statement, not
-    as a summand of a larger sum (`b*(1 - x*x) + a` loses only an absolute error below eps)."""
-    while True:
-        parent = ctx.parent(node)
-        if isinstance(parent, ast.BinOp) and isinstance(parent.op, (ast.Mult, ast.Div, ast.MatMult)):
-            node = parent
-        elif isinstance(parent, ast.BinOp) and isinstance(parent.op, ast.Pow) and parent.left is node:
-            node = parent
-        elif isinstance(parent, ast.UnaryOp) and isinstance(parent.op, (ast.USub, ast.UAdd)):
-            node = parent
-        elif isinstance(parent, ast.Call) and ctx.family(parent) in _RELATIVE and parent.args and parent.args[0] is node:
-            node = parent
-        elif isinstance(parent, ast.BinOp):
-            return False  # a summand (or an operand of a comparison-like op): only the absolute error counts
-        else:
-            return True  # reached the statement, an argument, a subscript: the value is used as it is
+def spelled_apart(ctx: Context, x: ast.expr, y: ast.expr) -> bool:
+    """True when both sides take only values the code spells out and their squares never come within
+    10% of each other (then at most about one digit is lost)."""
+    xs, ys = known_values(ctx, x), known_values(ctx, y)
+    if xs is None or ys is None:
+        return False
+    if len(xs) != len(ys) and 1 not in (len(xs), len(ys)):
+        return False
+    n = max(len(xs), len(ys))
+    pairs = [(xs[i % len(xs)] ** 2, ys[i % len(ys)] ** 2) for i in range(n)]
+    return all(abs(a - b) >= 0.1 * max(a, b) for a, b in pairs)
 
 
 class SquareDifference(Rule):
@@ -125,6 +116,13 @@ class SquareDifference(Rule):
                 note="a quantity named as a count: its square is exact (field trial)"),
         Example("import numpy as np\ndef adjust(n):\n    return (1 - np.sign(n - 2) ** 2) * 0.5\n", False,
                 note="sign() is -1, 0 or 1: integer arithmetic"),
+        Example("def check_jac():\n    x = 2.0\n    f = x**2 + 5\n    fs = f / 10\n    return 2 * x * (1 - fs**2) ** 0.5 / (1 + fs**2)\n",
+                False, note="a value the code spells out, far from 1 (field trial)"),
+        Example("import numpy as np\ndef score():\n    def partial(phi, s2):\n        return -0.5 / (s2 * (1 - phi**2))\n"
+                "    params = np.r_[0.0, 2]\n    return partial(params[0], params[1])\n", False,
+                note="a nested helper only ever called with phi = 0 (field trial)"),
+        Example("import math\ndef near_unity():\n    r = 0.99999999\n    return math.sqrt(1 - r**2)\n", True,
+                note="a constant set in the code, but close to 1: the loss is real"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -136,8 +134,8 @@ class SquareDifference(Rule):
             return
         if (whole_or_count(ctx, x) and whole_or_count(ctx, y)) or from_reduction(ctx, x) or from_reduction(ctx, y):
             return
-        if p.constant_value(ctx, x) is not None and p.constant_value(ctx, y) is not None:
-            return  # both sides are constants set in the code (r = 0.5 above): one fixed value, nothing to audit
+        if spelled_apart(ctx, x, y):
+            return  # the code spells out both sides (r = 0.5 above, literal arrays) and they are never close
         one = p.is_one(x) or p.is_one(y)
         if one and pythagoras(ctx, x, y) is None and not under_root(ctx, node) and not relative_position(ctx, node):
             return  # 1 - x*x as a summand of a polynomial is harmless; as a factor, divisor or radicand it bites

@@ -243,3 +243,60 @@ def bounded_below_x(ctx: Context, loop: Loop, xnames: set[str]) -> bool | None:
         return None
     guard = _guard_bound(ctx, loop, xnames)
     return guard is not None and guard >= 2 * count
+
+
+def integer_items(ctx: Context, target: ast.AST, iterable: ast.AST) -> set[str]:
+    """Loop or comprehension names that hold Python ints: enumerate counters, items of an int-filled local list."""
+    ints: set[str] = set()
+    if isinstance(iterable, ast.Call) and isinstance(iterable.func, ast.Name) and iterable.func.id == "enumerate" \
+            and ctx.qualname(iterable.func) is None and iterable.args:
+        elts = target.elts if isinstance(target, ast.Tuple) else []
+        if len(elts) != 2:
+            return ints
+        if isinstance(elts[0], ast.Name):
+            ints.add(elts[0].id)
+        target, iterable = elts[1], iterable.args[0]
+    if isinstance(target, ast.Name) and isinstance(iterable, ast.Name) and int_filled_list(ctx, iterable):
+        ints.add(target.id)
+    return ints
+
+
+def int_filled_list(ctx: Context, name: ast.Name) -> bool:
+    """True when a local list is built from int literals and only ever grows by ints (`xs.append(len(c))`)."""
+    scope = ctx.scope(name)
+    bindings = ctx.flow(scope).of(name.id)
+    if not bindings or any(b.kind != "assign" or not _int_display(ctx, b.value) for b in bindings):
+        return False
+    for node in walk(scope):
+        if isinstance(node, ast.Name) and node.id == name.id and isinstance(node.ctx, ast.Load) \
+                and not _int_preserving_use(ctx, node):
+            return False
+    return True
+
+
+def _int_display(ctx: Context, value: ast.AST | None) -> bool:
+    return isinstance(value, (ast.List, ast.Tuple)) and all(_exact_int(ctx, e) for e in value.elts)
+
+
+def _exact_int(ctx: Context, expr: ast.AST) -> bool:
+    """An int term, excluding round(x, ndigits), which returns a float."""
+    rounded = any(isinstance(n, ast.Call) and isinstance(n.func, ast.Name) and n.func.id == "round" and len(n.args) > 1
+                  for n in walk(expr))
+    return not rounded and is_integer_term(ctx, expr, set())
+
+
+def _int_preserving_use(ctx: Context, use: ast.Name) -> bool:
+    """Reads that cannot put a non-int into the list: `xs.append(int)`, `xs.extend([ints])`, len(xs), xs[i], iteration."""
+    parent = ctx.parent(use)
+    if isinstance(parent, ast.Attribute) and parent.value is use:
+        call = ctx.parent(parent)
+        if not isinstance(call, ast.Call) or call.func is not parent or call.keywords or len(call.args) != 1:
+            return parent.attr in ("count", "index") and isinstance(call, ast.Call)
+        if parent.attr == "append":
+            return _exact_int(ctx, call.args[0])
+        return parent.attr == "extend" and _int_display(ctx, call.args[0])
+    if isinstance(parent, ast.Subscript) and parent.value is use:
+        return isinstance(parent.ctx, ast.Load)
+    if isinstance(parent, ast.Call) and isinstance(parent.func, ast.Name) and parent.func.id in ("len", "enumerate"):
+        return True
+    return isinstance(parent, (ast.For, ast.comprehension)) and parent.iter is use

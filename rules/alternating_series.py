@@ -20,6 +20,7 @@ from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
 from auditor import series as s
 from auditor.series import MAGNITUDE, loop_rewrite, severity_for, summed_term, vector_alternates
+from auditor.series_growth import integer_items
 from auditor.nodes import walk
 
 
@@ -115,6 +116,25 @@ class AlternatingSeries(Rule):
             True,
             note="the sign array and the magnitude both read the index: a series",
         ),
+        Example(
+            "def euler_number(cells_by_dim):\n    counts = []\n    for cells in cells_by_dim:\n"
+            "        counts.append(len(set(cells)))\n    return sum([(-1)**k * c for k, c in enumerate(counts)])\n",
+            False,
+            note="a list filled only with len() values holds Python ints: the signed sum is exact (field trial)",
+        ),
+        Example(
+            "def euler_number(cells_by_dim):\n    counts = [1]\n    for cells in cells_by_dim:\n"
+            "        counts.append(len(cells))\n    chi = 0\n    for k, c in enumerate(counts):\n"
+            "        chi += (-1)**k * c\n    return chi\n",
+            False,
+            note="the same in a loop: enumerate counter and int items (field trial)",
+        ),
+        Example(
+            "def signed_load(groups):\n    loads = []\n    for g in groups:\n        loads.append(len(g) / g.area)\n"
+            "    return sum([(-1)**k * w for k, w in enumerate(loads)])\n",
+            True,
+            note="the list holds quotients, not ints",
+        ),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -132,8 +152,9 @@ class AlternatingSeries(Rule):
             why = s.alternation(ctx, loop, acc)
             if why is None or s.growth(ctx, loop, acc) is not None:
                 continue
-            if s.exact_arithmetic(ctx, loop, acc):
-                continue
+            if s.exact_arithmetic(ctx, loop, acc) or (isinstance(loop, ast.For) and s.is_integer_term(
+                    ctx, acc.term, s.integer_names(ctx, loop) | integer_items(ctx, loop.target, loop.iter))):
+                continue  # Python ints (counts appended to a list, enumerate counters) add exactly
             known = s.recognise_loop(ctx, loop, acc.target)
             rewrite, imports, fix = loop_rewrite(ctx, loop, acc.target, known)
             yield Hit(loop, _message(known, why, fix), severity_for(ctx, loop, acc, known), rewrite, imports)
@@ -149,6 +170,8 @@ class AlternatingSeries(Rule):
         if found is None:
             return
         term, idx, ints = found
+        if isinstance(node, ast.Call) and node.args and isinstance(node.args[0], (ast.GeneratorExp, ast.ListComp)):
+            ints = ints | {n for g in node.args[0].generators for n in integer_items(ctx, g.target, g.iter)}
         weight = s.factorial_weight(ctx, term, idx, s.vector_resolver(ctx, term))
         if vector_alternates(ctx, term, idx) and weight <= 0:
             if s.is_integer_term(ctx, term, ints) or not s.magnitude_reads_index(ctx, term, idx):

@@ -9,9 +9,12 @@ import ast
 
 from auditor import algebra as alg
 from auditor import patterns as p
+from auditor.array_api import namespace_function
 from auditor.elementary import sqrt_argument, square_base
 from auditor.copies import stored_into
 from auditor.flow import Binding
+from auditor.local_returns import returned_items
+from auditor.relative_names import relative_qualname
 from auditor.rule import Context
 
 #: numeric families whose value, for a real argument, lies within [-pi, pi]
@@ -29,7 +32,17 @@ _UNIT_RESULTS: dict[str, tuple[int | None, int]] = {
 }
 
 
-def is_bounded(ctx: Context, expr: ast.expr, depth: int = 5) -> bool:
+#: library constructors documented to return rotation (orthogonal) matrices, whose entries lie in [-1, 1]
+#: and whose products stay orthogonal. From the astropy and pyerfa/SOFA documentation (from memory):
+#: `rotation_matrix(angle, axis)` rotates about an axis; the SOFA precession-nutation, celestial-to-
+#: intermediate/terrestrial and ecliptic matrices are rotations.
+_ORTHOGONAL = frozenset({
+    "astropy.coordinates.matrix_utilities.rotation_matrix",
+    "erfa.pnm06a", "erfa.pnm00a", "erfa.c2i06a", "erfa.c2t06a", "erfa.ecm06",
+})
+
+
+def is_bounded(ctx: Context, expr: ast.expr, depth: int = 8) -> bool:
     """True when every element of `expr` is known to lie within a small constant of 0 (|x| <= pi).
 
     Seen through local variables (tuple unpacking included): components of a vector divided by its
@@ -47,15 +60,53 @@ def is_bounded(ctx: Context, expr: ast.expr, depth: int = 5) -> bool:
     if isinstance(expr, ast.Attribute) and expr.attr == "T":
         return is_bounded(ctx, expr.value, depth - 1)
     if isinstance(expr, ast.Call):
-        total = p.reduction(ctx, expr)
-        if total is not None and total[0] == "mean":  # a mean of bounded values (circular statistics)
-            return is_bounded(ctx, total[1], depth - 1)
-        return ctx.family(expr) in _BOUNDED_FAMILIES or _UNIT_RESULTS.get(ctx.qualname(expr.func) or "") == (None, 1)
+        return _call_bounded(ctx, expr, depth)
+    if isinstance(expr, ast.BinOp) and isinstance(expr.op, ast.MatMult):
+        return is_orthogonal(ctx, expr, depth)
     if isinstance(expr, ast.BinOp) and isinstance(expr.op, ast.Mult):
         return is_bounded(ctx, expr.left, depth - 1) and is_bounded(ctx, expr.right, depth - 1)
     if isinstance(expr, ast.BinOp) and isinstance(expr.op, ast.Div):
         return divided_by_own_norm(ctx, expr.left, expr.right)
     return False
+
+
+def _call_bounded(ctx: Context, call: ast.Call, depth: int) -> bool:
+    """Bounded functions (also through an array-API namespace `xp.sin`), means of bounded values,
+    unit-vector and rotation-matrix results, and same-file functions that return bounded values."""
+    total = p.reduction(ctx, call)
+    namespaced = namespace_function(ctx, call)
+    if namespaced == "mean" and call.args and not isinstance(call.args[0], ast.Starred):
+        total = ("mean", call.args[0])
+    if total is not None and total[0] == "mean":  # a mean of bounded values (circular statistics)
+        return is_bounded(ctx, total[1], depth - 1)
+    if (ctx.family(call) or namespaced) in _BOUNDED_FAMILIES or is_orthogonal(ctx, call, depth):
+        return True
+    if _UNIT_RESULTS.get(ctx.qualname(call.func) or "") == (None, 1):
+        return True
+    items = returned_items(ctx, call)
+    return items is not None and all(is_bounded(ctx, item, depth - 1) for item in items)
+
+
+def is_orthogonal(ctx: Context, expr: ast.expr, depth: int = 5) -> bool:
+    """A rotation matrix: a documented constructor's result, its transpose, or a product of such."""
+    if depth <= 0:
+        return False
+    if isinstance(expr, ast.Name):
+        binding = ctx.binding(expr)
+        if binding is None or binding.kind != "assign" or binding.value is None or stored_into(ctx, expr, binding):
+            return False
+        if len(ctx.flow(ctx.scope(expr)).of(expr.id)) > 1 and ctx.enclosing_loops(expr):
+            return False  # reassigned inside a loop: the reaching value is ambiguous
+        return is_orthogonal(ctx, binding.value, depth - 1)
+    if isinstance(expr, ast.Attribute) and expr.attr == "T":
+        return is_orthogonal(ctx, expr.value, depth - 1)
+    if isinstance(expr, ast.BinOp) and isinstance(expr.op, ast.MatMult):
+        return is_orthogonal(ctx, expr.left, depth - 1) and is_orthogonal(ctx, expr.right, depth - 1)
+    if not isinstance(expr, ast.Call):
+        return False
+    if ctx.family(expr) == "matmul" and len(expr.args) == 2 and not expr.keywords:
+        return all(is_orthogonal(ctx, a, depth - 1) for a in expr.args)
+    return (ctx.qualname(expr.func) or relative_qualname(ctx, expr.func, _ORTHOGONAL)) in _ORTHOGONAL
 
 
 def _unit_element(ctx: Context, sub: ast.Subscript) -> bool:
@@ -96,6 +147,9 @@ def _unpacked_bounded(ctx: Context, binding: Binding, depth: int) -> bool:
         known = _UNIT_RESULTS.get(ctx.qualname(value.func) or "")
         if known is not None and known[0] is not None:
             return known == (position, len(elts))
+        items = returned_items(ctx, value, position, len(elts))
+        if items is not None:  # `s, sin_s, cos_s = helper(x)` with a same-file helper
+            return all(is_bounded(ctx, item, depth - 1) for item in items)
     return is_bounded(ctx, stmt.value, depth)
 
 

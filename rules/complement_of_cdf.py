@@ -18,7 +18,9 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
+from auditor.class_constants import literal_numbers
 from auditor.elementary import difference_operands, reads_variables, spelled_like, stable_origin
+from auditor.literal_tails import NOT_SMALL, special_value, stats_survival
 
 #: scipy.special distribution functions and their complements
 _TWINS = {"gammainc": "gammaincc", "betainc": "betaincc", "chdtr": "chdtrc", "pdtr": "pdtrc", "bdtr": "bdtrc",
@@ -27,6 +29,10 @@ _TWINS.update({v: k for k, v in list(_TWINS.items())})
 #: symmetric distributions: the complement is the cdf at the mirrored argument (which argument)
 _MIRRORED = {"ndtr": 0, "stdtr": 1}
 _HAS_ERFC = ("math", "scipy.special", "mpmath", "torch", "torch.special", "jax.scipy.special")
+#: methods that evaluate a distribution function (scipy.stats and the many libraries that follow it)
+_DISTRIBUTION_METHODS = ("cdf", "sf", "ccdf")
+#: checks that compare two values besides the `assert...` family (numpy API)
+_CHECKS = ("isclose", "allclose", "array_equal")
 
 
 def complement_method(ctx: Context, receiver: ast.expr) -> str | None:
@@ -104,6 +110,72 @@ def one_plus_erf(ctx: Context, node: ast.expr) -> ast.Call | None:
     return None
 
 
+def tests_identity(ctx: Context, node: ast.AST) -> bool:
+    """`assert_allclose(dist.sf(x), 1 - dist.cdf(x))`, `1 - gammaincc(a, x) == ref` with ref = gammainc(a, x):
+    the code checks a complement identity, and the rewrite would compare a function with itself."""
+    parent = ctx.parent(node)
+    if isinstance(parent, ast.Compare):
+        operands = [parent.left, *parent.comparators]
+    elif isinstance(parent, ast.Call) and any(a is node for a in parent.args[:2]) and _is_check(parent):
+        operands = list(parent.args[:2])
+    else:
+        return False
+    return any(_distribution_value(ctx, ctx.origin(o)) for o in operands if o is not node)
+
+
+def _is_check(call: ast.Call) -> bool:
+    func = call.func
+    name = func.id if isinstance(func, ast.Name) else func.attr if isinstance(func, ast.Attribute) else ""
+    return "assert" in name.lower() or name in _CHECKS
+
+
+def _distribution_value(ctx: Context, expr: ast.expr) -> bool:
+    """A distribution function or its complement evaluated: `d.sf(x)`, `d.cdf(x)`, `gammainc(a, x)`, `erfc(z)`."""
+    if not isinstance(expr, ast.Call):
+        return False
+    if isinstance(expr.func, ast.Attribute) and expr.func.attr in _DISTRIBUTION_METHODS:
+        return True
+    family, module = ctx.family(expr), p.callee_module(ctx, expr) or ""
+    return (family in _TWINS or family in _MIRRORED) and (module == "scipy.special" or module in _HAS_ERFC)
+
+
+def _not_small_at_literals(ctx: Context, value: ast.expr) -> bool:
+    """True when F and its arguments are constants the code sets and the complement there is at least
+    NOT_SMALL (`xx = [0.95, 1.0, 1.1]; 1 - chi2(1).cdf(xx)`): nothing sits in the tail."""
+    value = ctx.origin(value)
+    if not isinstance(value, ast.Call) or any(isinstance(a, ast.Starred) for a in value.args):
+        return False
+    args = [literal_numbers(ctx, a) for a in value.args]
+    keywords = {k.arg: literal_numbers(ctx, k.value) for k in value.keywords}
+    if not args or any(a is None for a in args) or any(k is None or v is None for k, v in keywords.items()):
+        return False
+    smallest = _literal_complement(ctx, value, args, keywords)  # type: ignore[arg-type]
+    return smallest is not None and smallest >= NOT_SMALL
+
+
+def _literal_complement(ctx: Context, value: ast.Call, args: list[tuple[float, ...]],
+                        keywords: dict[str, tuple[float, ...]]) -> float | None:
+    func = value.func
+    if isinstance(func, ast.Attribute) and func.attr == "cdf":
+        frozen = ctx.origin(func.value)
+        params: list[tuple[float, ...]] = []
+        if isinstance(frozen, ast.Call):  # stats.chi2(1).cdf(x) is stats.chi2.cdf(x, 1)
+            params = [literal_numbers(ctx, a) for a in frozen.args]  # type: ignore[misc]
+            more = {k.arg: literal_numbers(ctx, k.value) for k in frozen.keywords}
+            if any(a is None for a in params) or any(k is None or v is None for k, v in more.items()):
+                return None
+            keywords = {**keywords, **more}  # type: ignore[dict-item]
+            frozen = frozen.func
+        name = ctx.qualname(frozen) or ""
+        if not name.startswith("scipy.stats.") or name.count(".") != 2:
+            return None
+        return stats_survival(name.rpartition(".")[2], args[0], [*params, *args[1:]], keywords)
+    family = ctx.family(value)
+    if keywords or (p.callee_module(ctx, value) or "") not in ("scipy.special", "math") or family not in _TWINS:
+        return None
+    return special_value(_TWINS[family], args)
+
+
 class ComplementOfCdf(Rule):
     id = "complement-of-cdf"
     title = "complement of a distribution function"
@@ -131,6 +203,24 @@ class ComplementOfCdf(Rule):
         Example("from scipy.stats import norm\ndef f(z):\n    return 1 - norm.pdf(z)\n", False, note="a density, not a cdf"),
         Example("import numpy as np\ndef f(x):\n    return 1 - np.exp(-x)\n", False, note="the exp-minus-one rule's pattern"),
         Example("def f(model, x):\n    return 1 - model.cdf(x)\n", False, note="not known to be a scipy.stats distribution"),
+        # field trial regressions (docs/field-trial.md)
+        Example("from numpy.testing import assert_allclose\nfrom scipy import stats\ndef test_counts(k):\n"
+                "    d = stats.poisson(3.0)\n    assert_allclose(d.sf(k), 1 - d.cdf(k))\n", False,
+                note="a test of the identity sf = 1 - cdf: the rewrite would compare sf with itself (field trial)"),
+        Example("from numpy.testing import assert_allclose\nfrom scipy import special\ndef test_upper(a, x):\n"
+                "    ref = special.gammainc(a, x)\n    assert_allclose(1 - special.gammaincc(a, x), ref)\n", False,
+                note="1 - gammaincc checked against gammainc: the identity is what is tested (field trial)"),
+        Example("from numpy.testing import assert_allclose\nfrom scipy.stats import norm\ndef test_p(z, expected):\n"
+                "    assert_allclose(1 - norm.cdf(z), expected)\n", True,
+                note="compared with data, not with a distribution function: the tail loss is real"),
+        Example("from scipy import stats\nclass TestDetector:\n    @classmethod\n    def setup_class(cls):\n"
+                "        cls.levels = [0.95, 1.0, 1.1]\n    def test_upper(self):\n        d = stats.chi2(1)\n"
+                "        return 1 - d.cdf(self.levels)\n", False,
+                note="points set as literals in setup_class, complement about 0.3 there: no tail (field trial)"),
+        Example("from scipy import stats\nclass TestDetector:\n    @classmethod\n    def setup_class(cls):\n"
+                "        cls.levels = [30.0, 40.0]\n    def test_upper(self):\n        d = stats.chi2(1)\n"
+                "        return 1 - d.cdf(self.levels)\n", True,
+                note="literal points deep in the upper tail (complement below 1e-7): still reported"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -141,7 +231,7 @@ class ComplementOfCdf(Rule):
         if ops is None or not p.is_one(ops.left_written if not ops.aug else ops.left):
             return
         found = complement(ctx, ops.right)
-        if found is None:
+        if found is None or tests_identity(ctx, node) or _not_small_at_literals(ctx, ops.right):
             return
         rewrite: str | None = None
         imports: tuple[str, ...] = ()
@@ -153,7 +243,7 @@ class ComplementOfCdf(Rule):
 
     def _lower_tail(self, node: ast.BinOp, ctx: Context) -> Iterator[Hit]:
         erf = one_plus_erf(ctx, node)
-        if erf is None or self._inside_complement(node, ctx):
+        if erf is None or self._inside_complement(node, ctx) or tests_identity(ctx, node):
             return
         module = p.callee_module(ctx, erf) or "math"
         name, imports = spelled_like(ctx, module, "erfc")

@@ -16,7 +16,12 @@ from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
 from auditor.bounded import is_bounded
+from auditor.class_constants import literal_numbers
 from auditor.elementary import reads_variables, root_sum, spelled_like, sqrt_argument, square_base, stable_origin
+
+#: constants whose squares stay normal doubles: the squares overflow above about 1.3e154 and leave the
+#: normal range below about 1.5e-154 (IEEE 754 binary64 limits; common practice)
+_SAFE_CONSTANT = (1e-150, 1e150)
 
 #: libraries with a hypot, and whether it takes more than two arguments
 _HYPOT = {"math": True, "numpy": False, "torch": False, "jax.numpy": False, "cupy": False, "mpmath": False}
@@ -33,6 +38,13 @@ def components(ctx: Context, radicand: ast.expr) -> list[ast.expr] | None:
     if all(p.is_integer_valued(ctx, b) for b in bases):  # type: ignore[arg-type]
         return None  # integer offsets: the squares are exact and far from overflow
     return bases  # type: ignore[return-value]
+
+
+def safe_constant(ctx: Context, part: ast.expr) -> bool:
+    """A constant the code sets (`delta = 0.1`, a class attribute list) whose square cannot overflow or underflow."""
+    values = literal_numbers(ctx, part)
+    low, high = _SAFE_CONSTANT
+    return values is not None and all(v == 0 or low < abs(v) < high for v in values)
 
 
 def hypot_call(func: str, many: bool, parts: list[ast.expr]) -> ast.expr:
@@ -82,6 +94,29 @@ class UnguardedHypot(Rule):
         Example("import erfa\nimport numpy as np\ndef moved(p, f):\n    r, u = erfa.pn(p)\n    u[..., 0] *= f\n"
                 "    return np.sqrt(u[..., 0] ** 2 + u[..., 1] ** 2)\n", True,
                 note="a unit vector scaled in place is no longer bounded"),
+        Example("import numpy as np\ndef cutoff():\n    step = 0.1\n    return np.sqrt(step ** 2 + step ** 2)\n", False,
+                note="a local literal far from 1e154 and 1e-154: its square cannot overflow or underflow (field trial)"),
+        Example("import numpy as np\ndef cutoff():\n    step = 1e200\n    return np.sqrt(step ** 2 + step ** 2)\n", True,
+                note="a literal whose square overflows stays flagged"),
+        Example("from array_api_compat import array_namespace\ndef _parts(angles, xp):\n"
+                "    return xp.sin(angles), xp.cos(angles)\ndef resultant(angles):\n"
+                "    xp = array_namespace(angles)\n    s, c = _parts(angles, xp)\n"
+                "    return (xp.mean(s) ** 2 + xp.mean(c) ** 2) ** 0.5\n", False,
+                note="means of sines and cosines through an array-API namespace and a same-file helper (field trial)"),
+        Example("from array_api_compat import array_namespace\ndef _parts(angles, xp):\n"
+                "    return xp.sinh(angles), xp.cos(angles)\ndef resultant(angles):\n"
+                "    xp = array_namespace(angles)\n    s, c = _parts(angles, xp)\n"
+                "    return (xp.mean(s) ** 2 + xp.mean(c) ** 2) ** 0.5\n", True,
+                note="a helper returning sinh, which is unbounded: still reported"),
+        Example("import numpy as np\nfrom astropy.coordinates.matrix_utilities import rotation_matrix\n"
+                "def pole_tilt(lon, x, y):\n"
+                "    r = rotation_matrix(lon, 'z') @ rotation_matrix(-y, 'x') @ rotation_matrix(-x, 'y')\n"
+                "    a, b = r[..., 0, 0], r[..., 0, 1]\n    return np.arctan2(r[..., 0, 2], np.sqrt(a * a + b * b))\n",
+                False, note="entries of a product of rotation matrices are bounded by 1 (field trial)"),
+        Example("import numpy as np\nfrom astropy.coordinates.matrix_utilities import rotation_matrix\n"
+                "def pole_tilt(lon, gain):\n    r = rotation_matrix(lon, 'z') @ gain\n"
+                "    a, b = r[..., 0, 0], r[..., 0, 1]\n    return np.sqrt(a * a + b * b)\n", True,
+                note="a rotation times an arbitrary matrix is not orthogonal: still reported"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -90,8 +125,8 @@ class UnguardedHypot(Rule):
             return
         value = ctx.origin(radicand)
         parts = components(ctx, value)
-        if parts is None or all(is_bounded(ctx, part) for part in parts):
-            return  # components within [-1, 1] (a unit vector, sines): their squares cannot overflow
+        if parts is None or all(is_bounded(ctx, part) or safe_constant(ctx, part) for part in parts):
+            return  # components within [-1, 1] (a unit vector, sines) or moderate constants: no overflow
         module = p.callee_module(ctx, node) or ("numpy" if ctx.imports.imports_any("numpy") else "math")
         rewrite: str | None = None
         imports: tuple[str, ...] = ()

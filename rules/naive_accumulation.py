@@ -5,11 +5,12 @@ n * eps * sum|v|: about 1e-10 relative after a million readings, and far worse w
 have mixed signs and the total is small. Pairwise summation (numpy's `np.sum` on contiguous
 float arrays) grows like log2(n) * eps, Kahan's compensated summation keeps the error near
 eps independent of n, and `math.fsum` returns the correctly rounded sum. Integer counters,
-short fixed loops (a range the code bounds by a small number), loops over groups (a function's
-`*args`, the bins of a tally, per-group partial sums), iterations whose total flows back into
-its own terms (Newton, optimisers), string or list building, series with a term recurrence or
-sign factor (the series rules report those) and accumulators never read after the loop are not
-flagged.
+short fixed loops (a range the code bounds by a small number, a literal table a private helper
+receives from every caller), loops over groups (a function's `*args`, the bins of a tally,
+per-group partial sums), passes that add a whole slab of an array or need a matrix power,
+product or factorisation, iterations whose total flows back into its own terms (Newton,
+optimisers), string or list building, series with a term recurrence or sign factor (the series
+rules report those) and accumulators never read after the loop are not flagged.
 """
 from __future__ import annotations
 
@@ -20,6 +21,8 @@ from dataclasses import dataclass
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
 from auditor.loopshape import group_loop, loop_dependencies
+from auditor.passterms import matrix_work, scaled_reduction, slab_term
+from auditor.tripcount import item_bound
 from auditor.nodes import children
 
 #: a `range(k)` or literal sequence at most this long is a short fixed loop
@@ -78,19 +81,11 @@ def rescaled_in_loop(loop: ast.For, name: str) -> bool:
 
 
 def short_fixed(ctx: Context, loop: ast.For) -> bool:
-    """`for k in range(3)`, `for w in (a, b, c)`, `range(1, min(3, n) + 1)`, `range(nrep)` after
-    `nrep = 10`: a length the code bounds by a small number, too few additions to matter."""
-    it = loop.iter
-    if isinstance(it, (ast.Tuple, ast.List, ast.Set)):
-        return len(it.elts) <= _SHORT
-    if isinstance(it, ast.Call) and isinstance(it.func, ast.Name) and it.func.id == "range" and it.args \
-            and len(it.args) <= 3 and not it.keywords:
-        start = p.int_bounds(ctx, it.args[0])[0] if len(it.args) > 1 else 0
-        stop = p.int_bounds(ctx, it.args[min(1, len(it.args) - 1)])[1]
-        step = p.literal_number(it.args[2]) if len(it.args) == 3 else 1
-        if start is not None and stop is not None and isinstance(step, int) and step > 0:
-            return stop - start <= _SHORT  # a positive step only shortens the walk
-    return False
+    """`for k in range(3)`, `for w in (a, b, c)`, `range(1, min(3, n) + 1)`, `range(nrep)` after `nrep = 10`,
+    a comprehension over such a range, `range(len(x))` where every caller passes a literal table: a length
+    the code bounds by a small number, too few additions to matter."""
+    bound = item_bound(ctx, loop.iter)
+    return bound is not None and bound <= _SHORT
 
 
 def loop_names(loop: ast.For) -> set[str]:
@@ -174,48 +169,6 @@ def moments_loop(loop: ast.For, accs: list[Accumulation]) -> bool:
     return any(p.is_square(a.term) is not None and ast.dump(p.is_square(a.term)) in terms for a in accs)  # type: ignore[arg-type]
 
 
-def scaled_reduction(ctx: Context, term: ast.expr, varying: set[str]) -> bool:
-    """`part.sum() / n`, `len(g) * xp.sum(d)`, `sq[k] / n[k]` after `sq = [g.sum() ** 2 for g in groups]`:
-    a per-pass partial sum, scaled; the loop runs over groups."""
-    while isinstance(term, ast.BinOp) and isinstance(term.op, (ast.Mult, ast.Div)):
-        if any(group_sum(ctx, side, varying, 6) for side in (term.left, term.right)):
-            return True
-        term = term.left
-    return group_sum(ctx, term, varying, 6)
-
-
-def group_sum(ctx: Context, node: ast.expr, varying: set[str], depth: int) -> bool:
-    """A reduction over one group, maybe wrapped, squared or scaled; or the element, picked by the
-    loop, of a list built by a comprehension of such (`sums[k]` after `sums = [a.sum() for a in parts]`)."""
-    if depth <= 0:
-        return False
-    if p.reduction(ctx, node) is not None or _namespace_sum(node):
-        return True
-    if isinstance(node, ast.Call) and ctx.family(node) in ("asarray", "array", "abs", "sqrt", "square") and node.args:
-        return group_sum(ctx, node.args[0], varying, depth - 1)
-    if isinstance(node, ast.BinOp) and isinstance(node.op, (ast.Mult, ast.Div, ast.Pow)):
-        return group_sum(ctx, node.left, varying, depth - 1) or \
-            not isinstance(node.op, ast.Pow) and group_sum(ctx, node.right, varying, depth - 1)
-    if isinstance(node, ast.Subscript) and isinstance(node.value, ast.Name) and p.names_in(node.slice) & varying:
-        built = ctx.origin(node.value)
-        return isinstance(built, (ast.ListComp, ast.GeneratorExp)) and group_sum(ctx, built.elt, set(), depth - 1)
-    if isinstance(node, ast.Name):  # a comprehension variable: an element of the list it walks
-        for comp in ctx.ancestors(node):
-            if isinstance(comp, _NESTED):
-                break
-            gens = comp.generators if isinstance(comp, (ast.ListComp, ast.GeneratorExp, ast.SetComp)) else []
-            if len(gens) == 1 and isinstance(gens[0].target, ast.Name) and gens[0].target.id == node.id:
-                built = ctx.origin(gens[0].iter)
-                return isinstance(built, (ast.ListComp, ast.GeneratorExp)) and group_sum(ctx, built.elt, set(), depth - 1)
-    return False
-
-
-def _namespace_sum(node: ast.AST) -> bool:
-    """`xp.sum(a)` through an array-namespace variable the import table cannot resolve."""
-    return isinstance(node, ast.Call) and isinstance(node.func, ast.Attribute) and node.func.attr in ("sum", "mean") \
-        and isinstance(node.func.value, ast.Name) and bool(node.args)
-
-
 def feeds_back(ctx: Context, acc: Accumulation) -> bool:
     """True when the total flows, through the assignments of the loops around it, into its own
     terms: Newton's `x = x - f(x) / df(x)`, or an optimiser whose steps read the iterate."""
@@ -243,13 +196,14 @@ def wanted(ctx: Context, loop: ast.For, acc: Accumulation) -> bool:
         return False
     if ctx.family(init) in ("zeros", "zeros_like", "ones", "empty", "full") if isinstance(init, ast.Call) else False:
         return False  # an array of sums over a loop: compensating each element is not the cheap fix assumed here
-    if scaled_reduction(ctx, acc.term, loop_names(loop)):
-        return False
+    varying, index = loop_names(loop), {n.id for n in ast.walk(loop.target) if isinstance(n, ast.Name)}
+    if scaled_reduction(ctx, acc.term, varying) or slab_term(acc.term, index) or matrix_work(ctx, acc.term):
+        return False  # per-group partial sums, a walk along an array axis, a few heavy matrix terms
     floaty = isinstance(init, ast.Constant) and isinstance(init.value, float) or float_evident(ctx, acc.term)
     if not floaty or p.is_integer_valued(ctx, acc.term) or p.reduction(ctx, acc.term) is not None \
             or array_algebra(ctx, acc.term):
         return False  # a sum of sums (`grand += math.fsum(row)`) has only one addition per row
-    if not p.names_in(acc.term) & loop_names(loop):
+    if not p.names_in(acc.term) & varying:
         return False  # a fixed step: the step-accumulation rule's pattern
     return not is_series(ctx, loop, acc.term) and not compensated(loop, acc) and read_after(ctx, loop, acc.target)
 
@@ -376,6 +330,48 @@ class NaiveAccumulation(Rule):
         Example("import numpy as np\ndef entropy(counts):\n    total = counts.sum()\n    h = 0.0\n    for c in counts:\n"
                 "        h -= (c / total) * np.log(c / total)\n    return h\n", True,
                 note="items scaled by one grand total are still one addition per item"),
+        Example("import numpy as np\ndef pair_excess(batches, gain):\n    excess = 0.0\n    for k in range(len(batches)):\n"
+                "        r = batches[k] / gain[k]\n        sq = np.sum(r * r)\n        excess += (r.sum() ** 2 - sq) / 2\n"
+                "    return excess\n", False,
+                note="a difference of per-group sums, one held in a temporary of the pass: a loop over groups (field trial)"),
+        Example("def pair_excess(readings, gain):\n    excess = 0.0\n    for k in range(len(readings)):\n"
+                "        r = readings[k] / gain[k]\n        sq = r * r\n        excess += (r - sq) / 2\n    return excess\n",
+                True, note="a temporary holding plain element arithmetic is no group sum"),
+        Example("import numpy as np\ndef response_gain(A, shocks, horizon):\n    G = 0.0\n    for m in range(horizon):\n"
+                "        apow = np.linalg.matrix_power(A, horizon - 1 - m)\n        piece = np.kron(apow, shocks[m])\n"
+                "        G = G + piece\n    return G\n", False,
+                note="each pass adds a whole matrix from a kron held in a temporary: a few heavy terms (field trial)"),
+        Example("import numpy as np\ndef spread_fit(proj, covs, sizes):\n    f = 0.0\n    for j, c in enumerate(covs):\n"
+                "        c = proj.T @ c @ proj\n        _, ldet = np.linalg.slogdet(c)\n        f -= sizes[j] * ldet / 2\n"
+                "    return f\n", False,
+                note="one log-determinant per covariance: each term is itself a factorisation (field trial)"),
+        Example("import math\ndef leave_one_out(x, h):\n    npts = 6\n    cv = 0.0\n    for ll in range(npts):\n"
+                "        rest = [i for i in range(npts) if i != ll]\n        g = 0.0\n        for i in rest:\n"
+                "            g += math.exp(-((x[i] - x[ll]) / h) ** 2)\n        cv += g / npts\n    return cv\n", False,
+                note="a list built by a comprehension over a range a local literal bounds: a short fixed loop (field trial)"),
+        Example("import math\ndef leave_one_out(x, h):\n    npts = len(x)\n    cv = 0.0\n    for ll in range(npts):\n"
+                "        rest = [i for i in range(npts) if i != ll]\n        g = 0.0\n        for i in rest:\n"
+                "            g += math.exp(-((x[i] - x[ll]) / h) ** 2)\n        cv += g / npts\n    return cv\n", True,
+                note="the same comprehension over the data length is long"),
+        Example("def joint_loglik(margins, y):\n    total = 0.0\n    for i in range(len(margins)):\n"
+                "        total += margins[i].logpdf(y[..., i])\n    return total\n", False,
+                note="the loop index picks a whole slab y[..., i]: each element gets one addition per axis entry (field trial)"),
+        Example("def event_score(X, events, centre):\n    grad = 0.0\n    for t in range(len(events)):\n        rows = events[t]\n"
+                "        grad += (X[rows, :] - centre).sum(0)\n    return grad\n", True,
+                note="rows picked per pass and reduced: one term per event, still a long sum"),
+        # Gauss-Legendre 3-point nodes +-sqrt(3/5), 0 and weights 5/9, 8/9 (Abramowitz & Stegun table 25.4, from memory)
+        Example("def _weighted(f, nodes, weights):\n    s = 0.0\n    for i in range(len(nodes)):\n"
+                "        s += weights[i] * f(nodes[i])\n    return s\n\n\ndef gauss3(f):\n"
+                "    nodes = (-0.7745966692414834, 0.0, 0.7745966692414834)\n"
+                "    weights = (0.5555555555555556, 0.8888888888888888, 0.5555555555555556)\n"
+                "    return _weighted(f, nodes, weights)\n", False,
+                note="every call of the private helper passes a literal table of 3 nodes: a short fixed loop (field trial)"),
+        Example("def _weighted(f, nodes, weights):\n    s = 0.0\n    for i in range(len(nodes)):\n"
+                "        s += weights[i] * f(nodes[i])\n    return s\n\n\ndef gauss3(f):\n"
+                "    return _weighted(f, (-0.7745966692414834, 0.0, 0.7745966692414834),\n"
+                "                     (0.5555555555555556, 0.8888888888888888, 0.5555555555555556))\n\n\n"
+                "def tabulated(f, xs, ws):\n    return _weighted(f, xs, ws)\n", True,
+                note="one caller passes data of any length: not a fixed loop"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:

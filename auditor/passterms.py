@@ -12,8 +12,7 @@ _NESTED = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)
 MATRIX_WORK = frozenset({
     "kron", "matrix_power", "solve", "solve_triangular", "inv", "pinv", "lstsq", "det", "slogdet", "cholesky",
     "cho_factor", "cho_solve", "lu_factor", "lu_solve", "qr", "svd", "eig", "eigh", "eigvals", "eigvalsh", "expm",
-    "outer",
-})
+})  # not `outer`: a scatter matrix summed from outer products of data rows is a long sum
 #: array methods that reduce what they are called on
 _SLAB_REDUCERS = frozenset({"sum", "mean", "prod", "std", "var", "max", "min", "dot", "any", "all", "nansum", "trace"})
 

@@ -372,6 +372,9 @@ class NaiveAccumulation(Rule):
                 "                     (0.5555555555555556, 0.8888888888888888, 0.5555555555555556))\n\n\n"
                 "def tabulated(f, xs, ws):\n    return _weighted(f, xs, ws)\n", True,
                 note="one caller passes data of any length: not a fixed loop"),
+        Example("import numpy as np\ndef scatter(rows, m):\n    S = 0.0\n    for x in rows:\n        d = np.outer(x - m, x - m)\n"
+                "        S = S + d / 2.0\n    return S\n", True,
+                note="an outer product of each data row, held in a temporary, is light work: a long sum of matrices"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:

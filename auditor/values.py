@@ -47,6 +47,8 @@ def _values(ctx: Context, expr: ast.AST, depth: int) -> Values | None:
     value = p.literal_number(expr)
     if value is not None:
         return None if isinstance(value, complex) else (float(value),)
+    if isinstance(expr, (ast.Name, ast.Attribute)) and ctx.family(expr) in ("pi", "e"):
+        return (math.pi if ctx.family(expr) == "pi" else math.e,)
     if isinstance(expr, ast.Name):
         return _name_values(ctx, expr, depth)
     if isinstance(expr, (ast.List, ast.Tuple)):
@@ -78,10 +80,44 @@ def _call_values(ctx: Context, call: ast.Call, depth: int) -> Values | None:
     family = ctx.family(call)
     if family in _ARRAY_MAKERS and call.args and not any(k.arg == "dtype" and _integer_dtype(k.value) for k in call.keywords):
         return known_values(ctx, call.args[0], depth)
+    if family in ("linspace", "arange"):
+        return _grid(ctx, call, family, depth)
     if family in _UNARY and len(call.args) == 1:
         inner = known_values(ctx, call.args[0], depth)
         return None if inner is None else tuple(_UNARY[family](v) for v in inner)
     return None
+
+
+def _grid(ctx: Context, call: ast.Call, family: str, depth: int) -> Values | None:
+    """`np.linspace(a, b, n)` and `np.arange(start, stop, step)` with literal bounds: every grid point."""
+    if call.keywords and family == "arange" or any(k.arg not in ("endpoint", "num") for k in call.keywords):
+        return None
+    bounds = [known_values(ctx, a, depth) for a in call.args]
+    if any(b is None or len(b) != 1 for b in bounds):
+        return None
+    nums = [b[0] for b in bounds]  # type: ignore[index]
+    if family == "linspace":
+        num = next((k.value for k in call.keywords if k.arg == "num"), None)
+        if num is not None:
+            nums.append(known_values(ctx, num, depth)[0] if known_values(ctx, num, depth) else math.nan)  # type: ignore[index]
+        if len(nums) == 2:
+            nums.append(50.0)  # numpy's default number of points
+        if len(nums) != 3 or not nums[2].is_integer() or not 1 <= nums[2] <= _LIMIT:
+            return None
+        endpoint = next((k.value for k in call.keywords if k.arg == "endpoint"), None)
+        closed = endpoint is None or isinstance(endpoint, ast.Constant) and endpoint.value is True
+        if endpoint is not None and not isinstance(endpoint, ast.Constant):
+            return None
+        a, b, n = nums[0], nums[1], int(nums[2])
+        step = (b - a) / (n - 1 if closed else n) if n > 1 else 0.0
+        return tuple(a + i * step for i in range(n))
+    start, stop, step = (0.0, nums[0], 1.0) if len(nums) == 1 else (nums[0], nums[1], nums[2] if len(nums) == 3 else 1.0)
+    if step == 0 or len(nums) > 3:
+        return None
+    count = math.ceil((stop - start) / step)
+    if not 0 < count <= _LIMIT:
+        return None
+    return tuple(start + i * step for i in range(count))
 
 
 def _integer_dtype(node: ast.expr) -> bool:

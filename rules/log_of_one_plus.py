@@ -9,6 +9,11 @@ Counts are left alone: integers (`len(xs)`, `np.arange(n)`, histogram and bincou
 quantities named as counts by the trade's conventions (`nobs`, `n_samples`, `df_resid`, `dof`,
 `num_items`, `hit_count`): 1 + a count rounds nothing away, and a count (or degrees of freedom)
 is never a small fraction.
+
+Two uses are left alone because they see only the absolute error of the logarithm, which is what
+forming 1 + x costs: a product computed in log space (`exp(cumsum(log(1 - h)))`, as long as the
+product is not then set against 1), and a term of a sum beside a constant at least as large
+(`-n*log(2*pi)/2 - n*sum(log(1 - lam))/2`).
 """
 from __future__ import annotations
 
@@ -18,6 +23,7 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
 from auditor.counts import count_named
+from auditor.log_space import beside_large_constant, exponentiated_only
 from auditor.positions import seeds_iteration
 from auditor.values import known_values
 
@@ -106,6 +112,18 @@ class LogOfOnePlus(Rule):
                 note="a starting point for an iterative fit: its low digits never reach the answer (field trial)"),
         Example("import numpy as np\ndef fit(model, y, x):\n    z = np.log(y + 1)\n    return model(z, x).fit(start_params=None)\n",
                 True, note="the transformed data themselves, not a starting point"),
+        Example("import numpy as np\ndef survival(d, n):\n    s = 1 - d / n\n    s = np.log(s)\n    s = np.cumsum(s)\n"
+                "    return np.exp(s)\n", False,
+                note="a product in log space: the log's absolute error is a relative error of the product, the "
+                     "same as rounding each factor (field trial)"),
+        Example("import numpy as np\ndef any_event(p):\n    return 1 - np.exp(np.sum(np.log(1 - p)))\n", True,
+                note="the product is then set against 1: the log's relative digits are needed"),
+        Example("import numpy as np\ndef loglike(nobs, neqs, logdet, lam, r):\n    return (-neqs * nobs * np.log(2 * np.pi) / 2"
+                "\n            - nobs * (logdet + sum(np.log(1 - lam)[:r])) / 2)\n", False,
+                note="a term of a log-likelihood beside a constant term at least as large: only its absolute "
+                     "error reaches the sum (field trial)"),
+        Example("import numpy as np\ndef log1pmx(x):\n    return np.log(1 + x) - x\n", True,
+                note="beside a term as small as itself, the absolute error is all of the result's digits"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -116,6 +134,8 @@ class LogOfOnePlus(Rule):
         found = one_plus(ctx, arg) if arg is not None else None
         if found is None:
             return
+        if exponentiated_only(ctx, node) or beside_large_constant(ctx, node):
+            return  # only the log's absolute error reaches the result (auditor/log_space.py)
         x, negated = found
         module = p.callee_module(ctx, node) or "math"
         rewrite, imports = None, ()

@@ -18,6 +18,7 @@ from auditor import patterns as p
 from auditor.elementary import (
     difference_operands, is_discriminant, reads_variables, related, root_sum, sqrt_argument, stable_origin,
 )
+from auditor.root_guards import guarded_root
 
 
 def squared_value(ctx: Context, side: ast.expr) -> tuple[ast.expr, bool] | None:
@@ -74,6 +75,12 @@ class SqrtDifference(Rule):
         Example("import math\ndef f(x):\n    return 1 / (math.sqrt(x + 1) + math.sqrt(x))\n", False),
         Example("import math\ndef root(a, b, c):\n    return (-b + math.sqrt(b * b - 4 * a * c)) / (2 * a)\n", False,
                 note="the quadratic-roots rule's pattern"),
+        Example("import numpy as np\ndef root_minus_one(a, k):\n    if np.angle(a) >= np.pi / 2:\n        a = np.sqrt(a)\n"
+                "        k = k - 1\n    z0 = a - 1\n    return z0 / (1 + np.sqrt(a)), k\n", False,
+                note="a is a root only where its argument is at least pi/4, far from 1; elsewhere it is not a "
+                     "root (field trial)"),
+        Example("import numpy as np\ndef root_minus_one(a, k):\n    if k > 2:\n        a = np.sqrt(a)\n"
+                "    return a - 1\n", True, note="a root under a test that says nothing of its size still cancels"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -91,7 +98,7 @@ class SqrtDifference(Rule):
                           "-c / (x - sqrt(x*x + c)) for x < 0", severity=Severity.NOTE)
             return
         ops = difference_operands(ctx, node)
-        if ops is None or ops.aug:
+        if ops is None or ops.aug or self._guarded(ctx, ops.left, ops.right, ops.left_written, ops.right_written):
             return
         found = self._conjugate_numerator(ctx, ops.left, ops.right, node)
         if found is None:
@@ -104,6 +111,11 @@ class SqrtDifference(Rule):
         fix = rewrite or "(a - b) / (sqrt(a) + sqrt(b))"
         yield Hit(node, "the two square roots agree in their leading digits and the subtraction discards them "
                   f"(sqrt(x + 1) - sqrt(x) is 0 for x above 1e16); use {fix}", severity=severity, rewrite=rewrite)
+
+    @staticmethod
+    def _guarded(ctx: Context, left: ast.expr, right: ast.expr, left_written: ast.expr, right_written: ast.expr) -> bool:
+        """`r - 1` where r is a root only on a branch whose test keeps it away from 1 (auditor/root_guards.py)."""
+        return (p.is_one(right) and guarded_root(ctx, left_written)) or (p.is_one(left) and guarded_root(ctx, right_written))
 
     @staticmethod
     def _inside_log(node: ast.AST, ctx: Context) -> bool:

@@ -4,6 +4,7 @@ from __future__ import annotations
 import ast
 
 from auditor import patterns as p
+from auditor.inverse_checks import adjoint
 from auditor.nodes import walk
 from auditor.rule import Context
 
@@ -49,7 +50,7 @@ def _untransposed(ctx: Context, node: ast.expr) -> ast.expr:
 
 
 def two_sided(ctx: Context, product: ast.AST, holder: ast.expr) -> bool:
-    """True when the inverse `holder` opens and closes its product chain: A^-1 M A^-1, a sandwich.
+    """True when the inverse `holder` opens and closes its product chain: A^-1 M A^-1 (or A^-1 M A^-H), a sandwich.
 
     Such a product is a covariance-like matrix whose every column needs the inverse, so solves gain
     nothing over the inverse. A middle that is one outer product u v^T is not exempt: there the chain
@@ -59,12 +60,22 @@ def two_sided(ctx: Context, product: ast.AST, holder: ast.expr) -> bool:
     if factors is None or len(factors) < 3:
         return False
     first, last = _untransposed(ctx, factors[0]), _untransposed(ctx, factors[-1])
-    if not (p.same_expr(first, holder) and p.same_expr(last, holder)):
+    if not (p.same_expr(first, holder) or p.same_expr(last, holder)):
+        return False
+    if not (p.same_expr(first, last) or _adjoint_inverses(ctx, first, last)):
         return False
     middle = factors[1:-1]
     rank_one = len(middle) == 1 and isinstance(ctx.origin(middle[0]), ast.Call) \
         and ctx.family(ctx.origin(middle[0])) == "outer"
     return not rank_one
+
+
+def _adjoint_inverses(ctx: Context, first: ast.expr, last: ast.expr) -> bool:
+    """True for inv(X) ... inv(Y) with Y spelled as X^T or X^H: inv(X^H) is inv(X)^H, one inverse on both sides."""
+    left, right = inverted(ctx, first), inverted(ctx, last)
+    if left is None or right is None or left[0] != right[0]:
+        return False
+    return adjoint(ctx, left[1].args[0], right[1].args[0])
 
 
 def _callee_name(call: ast.Call) -> str:
@@ -107,3 +118,60 @@ def kept_as_value(ctx: Context, holder: ast.expr, product: ast.AST) -> bool:
                 and inverted(ctx, node) is not None and _own_value_read(ctx, node):
             return True
     return False
+
+
+def _statement(ctx: Context, node: ast.AST) -> tuple[ast.AST | None, bool]:
+    """The statement holding `node`, and whether a conditional part of it (`x if c else y`, `and`) may skip `node`."""
+    guarded = False
+    current: ast.AST | None = node
+    while current is not None and not isinstance(current, ast.stmt):
+        parent = ctx.parent(current)
+        guarded = guarded or isinstance(parent, (ast.IfExp, ast.BoolOp, ast.Lambda, ast.comprehension))
+        current = parent
+    return current, guarded
+
+
+def _block(ctx: Context, stmt: ast.AST) -> list[ast.stmt] | None:
+    """The statement list `stmt` belongs to (a function body, a branch, a handler body)."""
+    parent = ctx.parent(stmt)
+    for field in ("body", "orelse", "finalbody"):
+        block = getattr(parent, field, None)
+        if isinstance(block, list) and any(s is stmt for s in block):
+            return block
+    return None
+
+
+def _application(ctx: Context, use: ast.Name) -> tuple[int, bool] | None:
+    """(side, transposed) when this read of an inverse is a direct factor of a matrix product, else None."""
+    factor: ast.AST = use
+    parent = ctx.parent(use)
+    if parent is not None and p.transposed(ctx, parent) is use:
+        factor = parent
+    product = _product_parent(ctx, factor)
+    pair = p.product_pair(ctx, product) if product is not None else None
+    if pair is None:
+        return None
+    return (0 if pair[0] is factor else 1), factor is not use
+
+
+def applied_again(ctx: Context, holder: ast.expr, product: ast.AST) -> bool:
+    """True when the inverse `holder` names multiplies, the same way (side, transpose), at two or more products
+    that run one after the other in one block: one operator applied to several right-hand sides."""
+    if not isinstance(holder, ast.Name):
+        return False
+    found = inverted(ctx, holder)
+    if found is None:
+        return False
+    runs: dict[tuple[int, int, bool], int] = {}
+    for node in walk(ctx.scope(product)):
+        if not (isinstance(node, ast.Name) and node.id == holder.id and isinstance(node.ctx, ast.Load)):
+            continue
+        same = inverted(ctx, node)
+        way = _application(ctx, node)
+        stmt, guarded = _statement(ctx, node)
+        block = _block(ctx, stmt) if stmt is not None and not guarded else None
+        if same is None or same[1] is not found[1] or way is None or block is None:
+            continue
+        key = (id(block), *way)
+        runs[key] = runs.get(key, 0) + 1
+    return any(count >= 2 for count in runs.values())

@@ -9,8 +9,11 @@ substitutes. A pseudo-inverse product `pinv(A) @ b` is a least-squares solve in 
 SVD-based lstsq computes the same minimum-norm solution without forming pinv(A).
 An inverse that is itself the goal (a covariance matrix returned to the caller) is not flagged, nor a
 sandwich A^-1 M A^-1 with one inverse on both sides (a robust covariance: every column of it needs the
-inverse, so solves gain nothing), nor a pseudo-inverse the function also keeps as a value of its own
-(then lstsq would be a second SVD). An inverse kept as a value and also applied to a right-hand side is
+inverse, so solves gain nothing; also A^-1 M A^-H with inv(A^H) spelled as its own inverse), nor a
+pseudo-inverse the function also keeps as a value of its own or applies the same way to several
+right-hand sides (then lstsq would be a second SVD). A product checked against the identity or against
+the matrix at both its ends (`assert_allclose(inv(A) @ B, I)`, `norm(A @ X @ A - A) < tol`) tests the
+inverse and is not flagged; `I - A X` used in further computation is. An inverse kept as a value and also applied to a right-hand side is
 a note: the inverse costs nothing extra, but its product is still not backward stable as a solve is.
 """
 from __future__ import annotations
@@ -21,7 +24,8 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
 from auditor.copies import data_source
-from auditor.inverse_use import inverted, kept_as_value, two_sided
+from auditor.inverse_checks import checks_identity, same_matrix
+from auditor.inverse_use import applied_again, chain_top, inverted, kept_as_value, two_sided
 from auditor.nodes import walk
 
 #: linear-algebra modules that offer `solve` and `lstsq` with numpy's meaning
@@ -48,13 +52,6 @@ def _variables(ctx: Context, expr: ast.expr) -> set[str]:
                 continue
         stack.extend(ast.iter_child_nodes(node))
     return found
-
-
-def same_matrix(ctx: Context, a: ast.expr, b: ast.expr) -> bool:
-    """True when a and b hold the same numbers: one expression, the same local value, or copies of one array."""
-    if p.same_expr(a, b) or p.same_expr(ctx.origin(a), ctx.origin(b)):
-        return True
-    return p.same_expr(data_source(ctx, a), data_source(ctx, b))
 
 
 def _sandwich(ctx: Context, product: ast.AST, holder: ast.expr) -> bool:
@@ -178,6 +175,35 @@ class ExplicitInverse(Rule):
         Example("import numpy as np\ndef wald(r, c, masked, nan_dot):\n    ci = np.linalg.pinv(c)\n"
                 "    if masked:\n        return nan_dot(nan_dot(r.T, ci), r)\n    return np.dot(np.dot(r.T, ci), r)\n",
                 True, note="a product helper named for dot multiplies: the inverse is not kept as a value"),
+        Example("import numpy as np\nfrom numpy.testing import assert_allclose\ndef penrose(a0):\n    a = a0.copy()\n"
+                "    a[0, 0] = 1e-3\n    ap = np.linalg.pinv(a0)\n    adiff = a @ ap @ a - a\n"
+                "    assert_allclose(np.linalg.norm(adiff), 5e-4, atol=5e-4)\n", False,
+                note="A X A - A, the residual of a Penrose identity, asserted: the pseudo-inverse is under test (field trial)"),
+        Example("import numpy as np\ndef gain(k, s, h):\n    return np.eye(len(h.T)) - k @ np.linalg.inv(s) @ h\n", True,
+                note="I - A X computed for use (not compared) is a solve, not a check of the inverse"),
+        Example("import numpy as np\ndef schur(a, b, c):\n    return c - b.T @ np.linalg.inv(a) @ b\n", True,
+                note="a Schur complement compared with another matrix is a solve, not a check of the inverse"),
+        Example("from scipy.linalg import inv\nimport numpy as np\nfrom numpy.testing import assert_allclose\n"
+                "def check(y, mask):\n    y_inv = inv(y * mask, check_finite=False)\n"
+                "    assert_allclose(y_inv @ np.tril(y), np.eye(5), atol=1e-15)\n", False,
+                note="a product asserted close to the identity tests the inverse (field trial)"),
+        Example("import numpy as np\nfrom numpy.testing import assert_allclose\ndef check(a, b, expected):\n"
+                "    assert_allclose(np.linalg.inv(a) @ b, expected)\n", True,
+                note="a product asserted close to expected values is a solve under test"),
+        Example("import numpy as np\ndef jacobian(d, s, a, sb, sd):\n    dp = np.linalg.pinv(d)\n"
+                "    j1 = np.dot(np.dot(dp, np.kron(s, a)), sb)\n    j2 = np.dot(np.dot(dp, np.kron(a, a)), sd)\n"
+                "    return j1, j2\n", False,
+                note="one pseudo-inverse applied to two right-hand sides: lstsq would redo the SVD (field trial)"),
+        Example("import numpy as np\ndef f(d, b, c, flag):\n    dp = np.linalg.pinv(d)\n    if flag:\n"
+                "        return dp @ b\n    else:\n        return dp @ c\n", True,
+                note="applied on exclusive branches, the pseudo-inverse serves one right-hand side per call"),
+        Example("from scipy.linalg import inv\nimport numpy as np\ndef bilinear(a, q):\n    eye = np.eye(a.shape[0])\n"
+                "    ah = a.conj().transpose()\n    ahi = inv(ah + eye)\n    b = np.dot(ah - eye, ahi)\n"
+                "    c = 2 * np.dot(np.dot(inv(a + eye), q), ahi)\n    return b, c\n", False,
+                note="inv(A) Q inv(A^H) spelled with two inverses is one sandwich (field trial)"),
+        Example("from scipy.linalg import inv\nimport numpy as np\ndef f(a, b, q):\n    eye = np.eye(a.shape[0])\n"
+                "    return np.dot(np.dot(inv(a + eye), q), inv(b + eye))\n", True,
+                note="inverses of two different matrices around Q are two solves"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -196,12 +222,16 @@ class ExplicitInverse(Rule):
                 return  # A @ inv(A): checking the inverse itself, nothing to solve
             if _variables(ctx, rhs) and _variables(ctx, rhs) == _variables(ctx, call.args[0]):
                 return  # inv(A) @ triu(A): a test of the inverse against its own matrix
+            if checks_identity(ctx, chain_top(ctx, node)):
+                return  # A X - I, A X A - A: a residual of an identity the inverse satisfies, the inverse is under test
             if _sandwich(ctx, node, factors[index]):
                 return  # P @ M @ P.T with P an inverse: a congruence whose factors are the goal
             if two_sided(ctx, node, factors[index]):
                 return  # A^-1 M A^-1: a sandwich covariance, the inverse is part of the goal
             if kind == "pinv" and _reused(ctx, node, call):
                 return  # pinv(A) applied to every item of a loop: computed once, used many times
+            if kind == "pinv" and applied_again(ctx, factors[index], node):
+                return  # one pinv(A) applied the same way to several right-hand sides: lstsq would redo the SVD each time
             if kind == "pinv" and kept_as_value(ctx, factors[index], node):
                 return  # pinv(A) kept as a value anyway: not formed to apply once, lstsq is a second SVD
             rewrite, imports = solve_text(ctx, kind, call, rhs, left=index == 0)

@@ -87,7 +87,8 @@ def _mentions(expr: ast.expr, name: str) -> bool:
 
 def _angle_of(ctx: Context, expr: ast.expr, name: str) -> bool:
     """`angle(y)` or `abs(angle(y))` of the name."""
-    if isinstance(expr, ast.Call) and ctx.family(expr) == "abs" and len(expr.args) == 1:
+    builtin = isinstance(expr, ast.Call) and isinstance(expr.func, ast.Name) and expr.func.id == "abs"
+    if isinstance(expr, ast.Call) and (builtin or ctx.family(expr) in ("abs", "absolute")) and len(expr.args) == 1:
         expr = expr.args[0]
     return (isinstance(expr, ast.Call) and ctx.family(expr) == "angle" and len(expr.args) >= 1
             and isinstance(expr.args[0], ast.Name) and expr.args[0].id == name)

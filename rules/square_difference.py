@@ -6,7 +6,13 @@ about eight digits are lost. `1 - x*x` near |x| = 1 is the same loss; it is repo
 relative error reaches the result: under a root (sqrt(1 - c*c) for a sine), as a divisor or factor
 (s2 / (1 - phi**2) for an AR(1) variance, (1 - c*c) / (...) in a density), raised to a power or
 under a log. As one summand of a larger polynomial (`a + b*(1 - x*x)`) only its absolute error,
-below one unit of 1, reaches the sum, so it is left alone there. The factored form
+below one unit of 1, reaches the sum, so it is left alone there; the same holds for a term of a
+sum or mean over samples (`((1 - x**2) * w).mean()`, directly or through a local only ever
+summed), for a root finder's objective (only its sign and absolute size count), and for the
+argument of a function flat and nonzero at 0 (exp, cos, the elliptic integral K). Nor is it
+reported when the code bounds |x| well below 1 (`sqrt(2/pi) * a/sqrt(1 + a**2)`), when both
+sides are whole numbers (tie counts from `return_counts=True`), or when the values are spelled
+out and never within 5% of each other except where they are equal. The factored form
 (x - y)*(x + y) subtracts the inputs themselves, which is exact when they are within a factor of
 two of each other (Sterbenz), so the result is accurate to a few units in the last place.
 For `1 - cos(t)**2` the identity sin(t)**2 is better still.
@@ -14,13 +20,17 @@ For `1 - cos(t)**2` the identity sin(t)**2 is better still.
 from __future__ import annotations
 
 import ast
+import math
 from collections.abc import Iterator
 
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
 from auditor.counts import whole_or_count
+from auditor.magnitude import magnitude_bound
 from auditor.positions import relative_position
+from auditor.tallies import tally
+from auditor.use_sites import flat_call_argument, only_summed, solver_objective
 from auditor.values import known_values
 from auditor.elementary import (
     difference_operands, reads_variables, related, spelled_like, square_base, stable_origin,
@@ -67,8 +77,9 @@ def under_root(ctx: Context, node: ast.AST) -> bool:
 
 
 def spelled_apart(ctx: Context, x: ast.expr, y: ast.expr) -> bool:
-    """True when both sides take only values the code spells out and their squares never come within
-    10% of each other (then at most about one digit is lost)."""
+    """True when both sides take only values the code spells out and their squares are either equal
+    in size (|x| == |y| up to a grid node's rounding: the same node, an exact 0) or never within 5% of
+    each other (then at most about one digit is lost): a grid np.linspace(-1, 1) against 1."""
     xs, ys = known_values(ctx, x), known_values(ctx, y)
     if xs is None or ys is None:
         return False
@@ -76,7 +87,29 @@ def spelled_apart(ctx: Context, x: ast.expr, y: ast.expr) -> bool:
         return False
     n = max(len(xs), len(ys))
     pairs = [(xs[i % len(xs)] ** 2, ys[i % len(ys)] ** 2) for i in range(n)]
-    return all(abs(a - b) >= 0.1 * max(a, b) for a, b in pairs)
+    return all(_same_size(xs[i % len(xs)], ys[i % len(ys)]) or abs(a - b) >= 0.05 * max(a, b)
+               for i, (a, b) in enumerate(pairs))
+
+
+def _same_size(x: float, y: float) -> bool:
+    """|x| == |y| up to the few units in the last place a spelled-out grid node carries (np.linspace
+    sets its end node exactly to the bound; the node i*step + a rebuilt here may miss it by an ulp):
+    the same node, where x*x - y*y is an exact 0, not a lost small value."""
+    big = max(abs(x), abs(y))
+    return abs(abs(x) - abs(y)) <= 4 * math.ulp(big)
+
+
+def far_from_one(ctx: Context, x: ast.expr) -> bool:
+    """True when the code bounds |x| so that x*x <= 0.95 (`sqrt(2/pi) * a/sqrt(1 + a**2)` is at most
+    0.798): then 1 - x*x >= 0.05 and at most about one digit is lost."""
+    bound = magnitude_bound(ctx, x)
+    return bound is not None and bound * bound <= 0.95
+
+
+def absolute_use(ctx: Context, node: ast.AST) -> bool:
+    """True when only the absolute error of 1 - x*x reaches a result: a term of a sum or mean over
+    samples, the objective of a root finder, the argument of a function flat and nonzero at 0."""
+    return only_summed(ctx, node) or solver_objective(ctx, node) or flat_call_argument(ctx, node)
 
 
 class SquareDifference(Rule):
@@ -123,6 +156,32 @@ class SquareDifference(Rule):
                 note="a nested helper only ever called with phi = 0 (field trial)"),
         Example("import math\ndef near_unity():\n    r = 0.99999999\n    return math.sqrt(1 - r**2)\n", True,
                 note="a constant set in the code, but close to 1: the loss is real"),
+        Example("import numpy as np\ndef contrast(x):\n    e = np.exp(-x**2 / 2)\n    g_x = (1 - x**2) * e\n"
+                "    return x * e, g_x.mean(axis=-1)\n", False,
+                note="only averaged over samples: each term passes on an absolute error below eps (field trial)"),
+        Example("import numpy as np\ndef contrast(x):\n    g_x = (1 - x**2) * np.exp(-x**2 / 2)\n    return g_x.sum() / g_x\n",
+                True, note="also a divisor: not only summed"),
+        Example("from scipy.optimize import brentq\ndef test_bracket():\n    return brentq(lambda x: x**2 - 1, 0, 2)\n",
+                False, note="a root finder's objective: only its sign and absolute size count (field trial)"),
+        Example("import numpy as np\ndef skew_stats(a):\n    const = np.sqrt(2 / np.pi) * a / np.sqrt(1 + a**2)\n"
+                "    return const, 1 - const**2\n", False,
+                note="|const| <= sqrt(2/pi) = 0.80 by construction: 1 - const**2 >= 0.36 (field trial)"),
+        Example("import numpy as np\ndef skew_draw(a, u0, v):\n    d = a / np.sqrt(1 + a**2)\n"
+                "    return d * u0 + v * np.sqrt(1 - d**2)\n", True,
+                note="|d| <= 1 only: d -> 1 for a large shape, where the loss is real"),
+        Example("import numpy as np\ndef tie_terms(x):\n    _, t = np.unique(x, return_counts=True)\n"
+                "    t = np.asarray(t, dtype=float)\n    return t * (t * t - 1) / 12.0\n", False,
+                note="tie counts are whole numbers even as floats: t*t - 1 is exact (field trial)"),
+        Example("import numpy as np\ndef value_terms(x):\n    u, t = np.unique(x, return_counts=True)\n"
+                "    return u * (u * u - 1) / 12.0\n", True, note="the unique values themselves are not counts"),
+        Example("import numpy as np\ndef test_polyval():\n    x = np.linspace(-1, 1)\n    return x * (x**2 - 1)\n",
+                False, note="a literal grid: exact 0 at +-1, next node 2/49 inside (field trial)"),
+        Example("import numpy as np\ndef test_fine():\n    x = np.linspace(-1, 1, 2001)\n    return x * (x**2 - 1)\n",
+                True, note="a fine grid has nodes within 0.1% of 1"),
+        Example("from scipy import special\ndef order(arg0):\n    return special.ellipk([arg0**2, 1 - arg0**2])\n",
+                False, note="K(m) is flat and nonzero at m = 0: a relative error in m barely moves it (field trial)"),
+        Example("from scipy import special\ndef order(arg0):\n    return special.ellipkm1(1 - arg0**2)\n",
+                True, note="K(1 - p) has a log singularity at p = 0: not flat there"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -134,11 +193,15 @@ class SquareDifference(Rule):
             return
         if (whole_or_count(ctx, x) and whole_or_count(ctx, y)) or from_reduction(ctx, x) or from_reduction(ctx, y):
             return
+        if all(whole_or_count(ctx, b) or tally(ctx, b) for b in (x, y)):
+            return  # tie counts or unique counts (integers even as floats): the squares are exact
         if spelled_apart(ctx, x, y):
             return  # the code spells out both sides (r = 0.5 above, literal arrays) and they are never close
         one = p.is_one(x) or p.is_one(y)
         if one and pythagoras(ctx, x, y) is None and not under_root(ctx, node) and not relative_position(ctx, node):
             return  # 1 - x*x as a summand of a polynomial is harmless; as a factor, divisor or radicand it bites
+        if one and (absolute_use(ctx, node) or far_from_one(ctx, y if p.is_one(x) else x)):
+            return
         correlated = related(ctx, x, y) or related(ctx, ctx.origin(x), ctx.origin(y))
         rewrite: str | None = None
         imports: tuple[str, ...] = ()

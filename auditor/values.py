@@ -110,7 +110,10 @@ def _grid(ctx: Context, call: ast.Call, family: str, depth: int) -> Values | Non
             return None
         a, b, n = nums[0], nums[1], int(nums[2])
         step = (b - a) / (n - 1 if closed else n) if n > 1 else 0.0
-        return tuple(a + i * step for i in range(n))
+        points = [a + i * step for i in range(n)]
+        if closed and n > 1:
+            points[-1] = b  # numpy sets the end point to the bound itself
+        return tuple(points)
     start, stop, step = (0.0, nums[0], 1.0) if len(nums) == 1 else (nums[0], nums[1], nums[2] if len(nums) == 3 else 1.0)
     if step == 0 or len(nums) > 3:
         return None

@@ -3,7 +3,7 @@ from __future__ import annotations
 
 import ast
 
-from auditor.patterns import names_in, reduction
+from auditor.patterns import names_in, product_pair, reduction
 from auditor.rule import Context
 
 _NESTED = (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda, ast.ClassDef)
@@ -32,7 +32,7 @@ def group_sum(ctx: Context, node: ast.expr, varying: set[str], depth: int) -> bo
     loop, of a list built by a comprehension of such (`sums[k]` after `sums = [a.sum() for a in parts]`)."""
     if depth <= 0:
         return False
-    if reduction(ctx, node) is not None or _namespace_sum(node, varying):
+    if reduction(ctx, node) is not None or _namespace_sum(node, varying) or lagged_product(ctx, node, varying):
         return True
     if isinstance(node, ast.Call) and ctx.family(node) in ("asarray", "array", "abs", "sqrt", "square") and node.args:
         return group_sum(ctx, node.args[0], varying, depth - 1)
@@ -56,6 +56,27 @@ def group_sum(ctx: Context, node: ast.expr, varying: set[str], depth: int) -> bo
             if len(gens) == 1 and isinstance(gens[0].target, ast.Name) and gens[0].target.id == node.id:
                 built = ctx.origin(gens[0].iter)
                 return isinstance(built, (ast.ListComp, ast.GeneratorExp)) and group_sum(ctx, built.elt, set(), depth - 1)
+    return False
+
+
+def lagged_product(ctx: Context, node: ast.expr, varying: set[str]) -> bool:
+    """`np.dot(r[i:], r[:n - i])`: an inner product of slices that run from a bound the pass moves to an
+    end it does not (a lag or a tail); each term is a reduction over most of the data, the loop runs
+    over lags. A window `x[i:i + k]` moves both bounds and is left out: it is short, and one per item."""
+    pair = product_pair(ctx, node)
+    return pair is not None and any(_tail_slice(side, varying) for side in pair)
+
+
+def _tail_slice(node: ast.expr, varying: set[str]) -> bool:
+    if not isinstance(node, ast.Subscript):
+        return False
+    parts = node.slice.elts if isinstance(node.slice, ast.Tuple) else [node.slice]
+    for part in parts:
+        if isinstance(part, ast.Slice) and part.step is None:
+            bounds = [b for b in (part.lower, part.upper)]
+            moved = [b is not None and bool(names_in(b) & varying) for b in bounds]
+            if any(moved) and not all(moved):
+                return True
     return False
 
 

@@ -21,6 +21,7 @@ from auditor import patterns as p
 from auditor import series as s
 from auditor.series import MAGNITUDE, loop_rewrite, severity_for, summed_term, vector_alternates
 from auditor.series_growth import integer_items
+from auditor.series_passes import pass_alternation
 from auditor.nodes import walk
 
 
@@ -135,6 +136,20 @@ class AlternatingSeries(Rule):
             True,
             note="the list holds quotients, not ints",
         ),
+        Example(
+            "import numpy as np\ndef hit_rate(fit, n, npos, es, nrep):\n    rs = np.random.default_rng(4)\n"
+            "    power = 0.0\n    for _ in range(nrep):\n        x = rs.normal(size=(n, npos))\n"
+            "        coeff = es * (-1) ** np.arange(npos)\n        y = np.dot(x, coeff) + rs.normal(size=n)\n"
+            "        stats = fit(y, x)\n        power += np.mean(stats[0:npos] >= 1.0)\n    return power / nrep\n",
+            False,
+            note="a sign vector rebuilt each pass goes into a model, not into the sign of the term added (field trial)",
+        ),
+        Example(
+            "import numpy as np\ndef tail(x, n):\n    k = np.arange(n)\n    terms = (-1.0) ** k * x ** k / (k + 1)\n"
+            "    s = 0.0\n    for j in range(n):\n        s += terms[j]\n    return s\n",
+            True,
+            note="the pass picks one element of a signed array: the term alternates",
+        ),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -149,7 +164,7 @@ class AlternatingSeries(Rule):
                 continue
             if any(isinstance(n, (ast.GeneratorExp, ast.ListComp)) for n in walk(acc.term)):
                 continue  # a summed comprehension inside the term is reported on its own call
-            why = s.alternation(ctx, loop, acc)
+            why = pass_alternation(ctx, loop, acc)
             if why is None or s.growth(ctx, loop, acc) is not None:
                 continue
             if s.exact_arithmetic(ctx, loop, acc) or (isinstance(loop, ast.For) and s.is_integer_term(

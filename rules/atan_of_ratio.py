@@ -5,8 +5,11 @@ off by pi; at x = 0 the quotient raises ZeroDivisionError (math) or turns into i
 warning (numpy), and a tiny x overflows it. The rounding error itself is small (atan is well
 conditioned), so this is mostly a wrong-answer bug, not a digits bug. atan2(y, x) takes the two
 coordinates apart: it knows the quadrant and never divides. Where x is known positive
-(a length, an absolute value, a square root) the two are equal and atan2 only removes the
-division; there the finding is a note and the rewrite is exact. Elsewhere the rewrite is not
+(a length, an absolute value, a square root, a column of uniform draws scaled and shifted by
+positive literals) the two are equal and atan2 only removes the division; there the finding is
+a note and the rewrite is exact. In the expected value of a check (`assert_allclose(y,
+np.arctan(a / b))`) the formula has to follow the code it checks, so the finding is a note there
+too, without a rewrite. Elsewhere the rewrite is not
 offered, because atan2 changes the value for x < 0: that is the fix only when a full-circle
 angle is meant, which the author has to confirm. An atan divided by pi (`0.5 + atan(z) / pi`, a
 Cauchy-type cdf, or `(2 / pi) * atan(z)`) maps the half range onto an interval on purpose: z is a
@@ -20,8 +23,12 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
+from auditor.draw_ranges import value_range
 from auditor.elementary import is_nonnegative, reads_variables, spelled_like, stable_origin
 from auditor.nodes import walk
+
+#: checks that compare two values besides the `assert...` family (numpy API)
+_CHECKS = ("isclose", "allclose", "array_equal")
 
 #: the two-argument arctangent of each library
 _ATAN2 = {"math": "atan2", "numpy": "arctan2", "torch": "atan2", "jax.numpy": "arctan2", "cupy": "arctan2",
@@ -53,6 +60,38 @@ def divided_by_pi(ctx: Context, node: ast.AST) -> bool:
     return top is not node and any(inverted and _is_pi(ctx, f) for f, inverted in factors)
 
 
+def never_negative(ctx: Context, x: ast.expr) -> bool:
+    """A length, an absolute value, a square root, or a column of uniform draws scaled and shifted by
+    positive literals (`X = rng.uniform(size=(n, 4)); X[:, 0] *= 100`)."""
+    if is_nonnegative(ctx, x):
+        return True
+    span = value_range(ctx, x)
+    return span is not None and span.low >= 0
+
+
+def reference_formula(ctx: Context, node: ast.AST) -> bool:
+    """The atan sits in one side of an equality or closeness check whose other side is a computed value
+    (`assert_allclose(y, np.arctan(a / b))`): the expected value of a test, which has to spell the
+    formula of the code it checks, so atan2 is a change to make there, not here."""
+    child: ast.AST = node
+    for anc in ctx.ancestors(node):
+        if isinstance(anc, ast.stmt):
+            return False
+        if isinstance(anc, ast.Call) and _is_check(anc) and any(a is child for a in anc.args[:2]):
+            return len(anc.args) >= 2 and all(reads_variables(ctx, a) for a in anc.args[:2])
+        if isinstance(anc, ast.Compare) and len(anc.ops) == 1 and isinstance(anc.ops[0], ast.Eq):
+            return isinstance(ctx.parent(anc), ast.Assert) and reads_variables(ctx, anc.left) \
+                and reads_variables(ctx, anc.comparators[0])
+        child = anc
+    return False
+
+
+def _is_check(call: ast.Call) -> bool:
+    func = call.func
+    name = func.id if isinstance(func, ast.Name) else func.attr if isinstance(func, ast.Attribute) else ""
+    return "assert" in name.lower() or name in _CHECKS
+
+
 class AtanOfRatio(Rule):
     id = "atan-of-ratio"
     title = "atan of a quotient"
@@ -80,6 +119,18 @@ class AtanOfRatio(Rule):
                 False, note="2/pi * atan(...) normalises the half range onto (-1, 1)"),
         Example("import math\ndef heading(dy, dx):\n    return math.atan(dy / dx) * 180 / math.pi\n", True,
                 note="a conversion to degrees divides by pi too, but the angle of the point is still meant"),
+        Example("import numpy as np\ndef friedman_like(n, seed):\n    rng = np.random.default_rng(seed)\n"
+                "    X = rng.uniform(size=(n, 3))\n    X[:, 0] *= 100\n    X[:, 1] *= 520 * np.pi\n"
+                "    X[:, 1] += 40 * np.pi\n    X[:, 2] -= 0.5\n    return np.arctan(X[:, 1] * X[:, 2] / X[:, 0])\n",
+                True, "np.arctan2(X[:, 1] * X[:, 2], X[:, 0])",
+                note="a column of uniform draws times a positive literal is never negative: a note (field trial)"),
+        Example("import numpy as np\ndef tilted(n, seed):\n    rng = np.random.default_rng(seed)\n"
+                "    X = rng.uniform(size=(n, 3))\n    X[:, 0] -= 0.5\n    return np.arctan(X[:, 1] / X[:, 0])\n",
+                True, note="the column was shifted below 0: the quadrant can be lost, no rewrite"),
+        Example("import numpy as np\nfrom numpy.testing import assert_allclose\nfrom benchlab import make_bench3\n"
+                "def test_bench3():\n    X, y = make_bench3(n_samples=5)\n"
+                "    assert_allclose(y, np.arctan(X[:, 1] * X[:, 2] / X[:, 0]))\n", True,
+                note="the expected value of a check must spell the formula it checks: a note, no rewrite (field trial)"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -99,7 +150,11 @@ class AtanOfRatio(Rule):
             return
         if divided_by_pi(ctx, node):
             return  # the half range normalised to an interval (a cdf): the quotient is a standardised variable
-        if not is_nonnegative(ctx, x):
+        if not never_negative(ctx, x) and reference_formula(ctx, node):
+            yield Hit(node, "atan(y / x) in the expected value of a check has to follow the code it checks; if that "
+                      "code means the angle of the point (x, y), both need atan2(y, x)", severity=Severity.NOTE)
+            return
+        if not never_negative(ctx, x):
             yield Hit(node, "atan(y / x) is off by pi when x < 0 and divides by zero at x = 0; use atan2(y, x) "
                       "if the angle of the point (x, y) is meant")
             return

@@ -7,10 +7,11 @@ float arrays) grows like log2(n) * eps, Kahan's compensated summation keeps the 
 eps independent of n, and `math.fsum` returns the correctly rounded sum. Integer counters,
 short fixed loops (a range the code bounds by a small number, a literal table a private helper
 receives from every caller), loops over groups (a function's `*args`, the bins of a tally,
-per-group partial sums), passes that add a whole slab of an array or need a matrix power,
-product or factorisation, iterations whose total flows back into its own terms (Newton,
-optimisers), string or list building, series with a term recurrence or sign factor (the series
-rules report those) and accumulators never read after the loop are not flagged.
+per-group partial sums, inner products over lagged tails of the data), passes that add a whole
+slab of an array or need a matrix power, product or factorisation, iterations whose total flows
+back into its own terms (Newton, optimisers), string or list building, series with a term
+recurrence or sign factor (the series rules report those) and accumulators never read after
+the loop are not flagged.
 """
 from __future__ import annotations
 
@@ -375,6 +376,13 @@ class NaiveAccumulation(Rule):
         Example("import numpy as np\ndef scatter(rows, m):\n    S = 0.0\n    for x in rows:\n        d = np.outer(x - m, x - m)\n"
                 "        S = S + d / 2.0\n    return S\n", True,
                 note="an outer product of each data row, held in a temporary, is light work: a long sum of matrices"),
+        Example("import numpy as np\ndef long_run_variance(resids, nobs, lags):\n    s_hat = np.sum(resids**2)\n"
+                "    for i in range(1, lags + 1):\n        prod = np.dot(resids[i:], resids[: nobs - i])\n"
+                "        s_hat += 2 * prod * (1.0 - i / (lags + 1.0))\n    return s_hat / nobs\n", False,
+                note="each pass adds an inner product over a lagged tail of the data: a loop over lags (field trial)"),
+        Example("import numpy as np\ndef window_energy(x, w, n):\n    e = 0.0\n    for i in range(n):\n"
+                "        d = np.dot(x[i:i + 4], w)\n        e += d / 4.0\n    return e\n", True,
+                note="a short window that moves with the pass is one term per item: still a long sum"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:

@@ -11,8 +11,9 @@ minus its base, x*(1 + d) - x, which returns only the digits of x*d that survive
 first: sum-to-product identities, exp(b)*expm1(a - b), log1p((a - b)/b) or log(a/b),
 (b - a)/(a*b), or x*d itself.
 
-Left alone on purpose: differences of independent inputs (a - b from two parameters), centring
-against a mean, integer, index, string and time arithmetic, difference quotients (the
+Left alone on purpose: differences of independent inputs (a - b from two parameters), the
+log-odds pair log(p) - log(1 - p) (it meets only where p crosses 1/2, where the rounding p
+already carries costs as much as the subtraction), centring against a mean, integer, index, string and time arithmetic, difference quotients (the
 finite-difference rule's), convergence tests, and (a + b) - a written out, which real code uses
 on purpose (the representable step (x + h) - x, Fast2Sum, Kahan's correction),
 and the forms other rules own (exp(x) - 1, 1 - cos(x), sqrt differences, squares, variance,
@@ -67,6 +68,31 @@ def _no_fixed_point_of(ctx: Context, a: ast.expr, b: ast.expr) -> bool:
     """`a` is log(b) or exp(b): log z < z < exp z everywhere, so f(z) and f(log z) never meet
     (e.g. log(z) - log(log(z)) in an asymptotic expansion)."""
     return ctx.is_call(a, "log", "exp") and p.single_arg(a) is not None and p.same_expr(p.single_arg(a), b)  # type: ignore[arg-type]
+
+
+#: a reflection `K - a` with K in this range costs log(a) - log(K - a) at most about one digit over the
+#: rounding a itself carries (see _reflected_logs)
+_REFLECTION = (1e-3, 1e3)
+
+
+def _reflected_logs(ctx: Context, family: str, a: ast.expr, b: ast.expr) -> bool:
+    """log(a) - log(K - a), the log-odds pair (also through locals: q = 1 - p): the two meet only where a
+    crosses K/2, and there the difference is ill-conditioned in a itself. Its derivative is
+    1/a + 1/(K - a) = 4/K, so the rounding a already carries (eps * K/2) is worth 2*eps in the result,
+    while the subtraction adds about 2*eps*|log(K/2)|; log(a/(K - a)) or log1p((2a - K)/(K - a)) win
+    nothing unless a is exact."""
+    if family not in ("log", "log2", "log10"):
+        return False
+    for x, y in ((a, b), (b, a)):
+        terms = alg.signed_terms(ctx.origin(y))
+        constants = [(p.literal_number(t), s) for t, s in terms if isinstance(p.literal_number(t), (int, float))]
+        others = [(t, s) for t, s in terms if p.literal_number(t) is None]
+        if len(terms) != 2 or len(constants) != 1 or len(others) != 1 or others[0][1] > 0:
+            continue
+        k = constants[0][0] * constants[0][1]  # type: ignore[operator]
+        if any(p.same_expr(others[0][0], v) for v in (x, ctx.origin(x))) and _REFLECTION[0] <= k <= _REFLECTION[1]:
+            return True
+    return False
 
 
 def _distinct_multiples(a: ast.expr, b: ast.expr) -> bool:
@@ -170,6 +196,12 @@ class SubtractiveCancellation(Rule):
                 note="a difference quotient: the finite-difference rule's"),
         Example("def kahan(xs):\n    s = c = 0.0\n    for x in xs:\n        y = x - c\n        t = s + y\n"
                 "        c = (t - s) - y\n        s = t\n    return s\n", False, note="an error-free transformation"),
+        Example("import numpy as np\ndef log_odds_ratio(p1, p2):\n"
+                "    return np.log(p1) - np.log(1 - p1) - np.log(p2) + np.log(1 - p2)\n", False,
+                note="log(p) - log(1 - p) meets only where p crosses 1/2, where p's own rounding costs as much (field trial)"),
+        Example("import numpy as np\ndef half_width(p):\n    return np.log(1 + p) - np.log(1 - p)\n", True,
+                "np.log1p((p + p) / (1 - p))",
+                note="1 + p and 1 - p meet as p goes to 0, where both logs lose p's digits: still reported"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -199,7 +231,7 @@ class SubtractiveCancellation(Rule):
             return None
         if is_difference_quotient(ctx, node) or (family in _ZERO_AT_ZERO and _distinct_multiples(a, b)):
             return None
-        if _no_fixed_point_of(ctx, a, b) or _no_fixed_point_of(ctx, b, a):
+        if _no_fixed_point_of(ctx, a, b) or _no_fixed_point_of(ctx, b, a) or _reflected_logs(ctx, family, a, b):
             return None
         form, imports = product_form(ctx, left, family, a, b)
         odd = family == "exp" and (p.same_expr(b, alg.neg(a)) or p.same_expr(a, alg.neg(b)))

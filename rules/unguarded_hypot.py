@@ -5,7 +5,8 @@ components above about 1.3e154 x*x is inf and the length comes out inf; below ab
 (1e-162 for subnormal squares) the squares vanish and the length is 0 or loses its digits.
 hypot scales the components first and is correctly rounded or nearly so in every modern libm.
 Python's math.hypot takes any number of components (3.8+); numpy's takes two, so three
-components nest: np.hypot(np.hypot(x, y), z).
+components nest: np.hypot(np.hypot(x, y), z). Components the code bounds are not reported: unit
+vectors, sines and cosines, moderate constants, and uniform draws scaled by literals.
 """
 from __future__ import annotations
 
@@ -17,6 +18,7 @@ from auditor import algebra as alg
 from auditor import patterns as p
 from auditor.bounded import is_bounded
 from auditor.class_constants import literal_numbers
+from auditor.draw_ranges import value_range
 from auditor.elementary import reads_variables, root_sum, spelled_like, sqrt_argument, square_base, stable_origin
 
 #: constants whose squares stay normal doubles: the squares overflow above about 1.3e154 and leave the
@@ -45,6 +47,20 @@ def safe_constant(ctx: Context, part: ast.expr) -> bool:
     values = literal_numbers(ctx, part)
     low, high = _SAFE_CONSTANT
     return values is not None and all(v == 0 or low < abs(v) < high for v in values)
+
+
+def moderate_draws(ctx: Context, parts: list[ast.expr]) -> bool:
+    """Components built from uniform draws and literals (`X[:, 0] *= 100` after `X = rng.uniform(size=...)`)
+    whose ranges keep every square finite and the length out of the underflow range: all magnitudes below
+    1e150, and every nonzero component at least 1e-150 (then the length is exactly 0 or at least that), or
+    one component bounded away from 0 by at least 1e-150."""
+    spans = [value_range(ctx, part) for part in parts]
+    if any(s is None for s in spans):
+        return False
+    low, high = _SAFE_CONSTANT
+    if any(s.magnitude >= high for s in spans):  # type: ignore[union-attr]
+        return False
+    return all(s.floor >= low for s in spans) or any(s.excludes_zero and s.floor >= low for s in spans)  # type: ignore[union-attr]
 
 
 def hypot_call(func: str, many: bool, parts: list[ast.expr]) -> ast.expr:
@@ -117,6 +133,14 @@ class UnguardedHypot(Rule):
                 "def pole_tilt(lon, gain):\n    r = rotation_matrix(lon, 'z') @ gain\n"
                 "    a, b = r[..., 0, 0], r[..., 0, 1]\n    return np.sqrt(a * a + b * b)\n", True,
                 note="a rotation times an arbitrary matrix is not orthogonal: still reported"),
+        Example("import numpy as np\ndef friedman_like(n, seed):\n    rng = np.random.default_rng(seed)\n"
+                "    X = rng.uniform(size=(n, 4))\n    X[:, 0] *= 100\n    X[:, 1] *= 520 * np.pi\n"
+                "    X[:, 1] += 40 * np.pi\n    X[:, 3] *= 10\n    X[:, 3] += 1\n"
+                "    return (X[:, 0] ** 2 + (X[:, 1] * X[:, 2] - 1 / (X[:, 1] * X[:, 3])) ** 2) ** 0.5\n", False,
+                note="uniform draws scaled by literals: every nonzero component lies between 1e-30 and 2e3 (field trial)"),
+        Example("import numpy as np\ndef spread(n, seed, scale):\n    rng = np.random.default_rng(seed)\n"
+                "    X = rng.uniform(size=(n, 2))\n    X[:, 0] *= scale\n    return np.sqrt(X[:, 0] ** 2 + X[:, 1] ** 2)\n",
+                True, "np.hypot(X[:, 0], X[:, 1])", note="a column scaled by a parameter can reach any magnitude"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -127,6 +151,8 @@ class UnguardedHypot(Rule):
         parts = components(ctx, value)
         if parts is None or all(is_bounded(ctx, part) or safe_constant(ctx, part) for part in parts):
             return  # components within [-1, 1] (a unit vector, sines) or moderate constants: no overflow
+        if moderate_draws(ctx, parts):
+            return  # scaled uniform draws: neither the squares nor the length can leave the normal range
         module = p.callee_module(ctx, node) or ("numpy" if ctx.imports.imports_any("numpy") else "math")
         rewrite: str | None = None
         imports: tuple[str, ...] = ()

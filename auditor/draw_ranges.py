@@ -15,15 +15,12 @@ from __future__ import annotations
 
 import ast
 import math
-from dataclasses import dataclass
 
 from auditor import patterns as p
 from auditor.nodes import walk
 from auditor.rule import Context
+from auditor.spans import UNIT, Span, add, apply, constant, join, make_span, multiply, negate
 
-#: relative slack for the float arithmetic of the bounds themselves (outward for ends, inward for floors)
-_SLACK = 1e-9
-_UNIT = 2.0 ** -53
 #: uniform-draw methods of numpy's RandomState/Generator and Python's random module: [0, 1) or [low, high)
 _STANDARD = frozenset({"random", "random_sample", "rand", "ranf"})
 #: constructors whose result is a numpy random generator (numpy API; sklearn's check_random_state
@@ -31,72 +28,6 @@ _STANDARD = frozenset({"random", "random_sample", "rand", "ranf"})
 _GENERATORS = frozenset({"default_rng", "RandomState", "Generator", "check_random_state"})
 #: array attributes that read an array without changing or handing it out
 _READ_ONLY = frozenset({"shape", "ndim", "dtype", "size", "T"})
-
-
-@dataclass(frozen=True, slots=True)
-class Span:
-    """Every element x has low <= x <= high, and x == 0 or |x| >= floor."""
-
-    low: float
-    high: float
-    floor: float
-
-    @property
-    def excludes_zero(self) -> bool:
-        return self.low > 0 or self.high < 0
-
-    @property
-    def magnitude(self) -> float:
-        return max(abs(self.low), abs(self.high))
-
-
-def _span(low: float, high: float, floor: float) -> Span | None:
-    if not (math.isfinite(low) and math.isfinite(high)) or math.isnan(floor):
-        return None
-    if low == high == 0:
-        return ZERO
-    low -= abs(low) * _SLACK
-    high += abs(high) * _SLACK
-    if low > 0 or high < 0:  # the interval itself keeps elements away from 0
-        floor = max(floor, min(abs(low), abs(high)))
-    return Span(low, high, max(floor * (1 - _SLACK), 0.0))
-
-
-#: the all-zero array: it has no nonzero element, so any floor holds
-ZERO = Span(0.0, 0.0, math.inf)
-
-
-def constant(value: float) -> Span | None:
-    return _span(value, value, abs(value))
-
-
-def add(a: Span, b: Span) -> Span | None:
-    if (a.low >= 0 and b.low >= 0) or (a.high <= 0 and b.high <= 0):
-        floor = min(a.floor, b.floor)  # same signs: no cancellation, the sum is 0 only when both are
-    else:
-        floor = min(a.floor, b.floor) * _UNIT  # a nonzero sum of two doubles is at least the smaller ulp
-    return _span(a.low + b.low, a.high + b.high, floor)
-
-
-def negate(a: Span) -> Span:
-    return Span(-a.high, -a.low, a.floor)
-
-
-def multiply(a: Span, b: Span) -> Span | None:
-    if ZERO in (a, b):
-        return ZERO
-    ends = [x * y for x in (a.low, a.high) for y in (b.low, b.high)]
-    return _span(min(ends), max(ends), a.floor * b.floor)
-
-
-def reciprocal(a: Span) -> Span | None:
-    if not a.excludes_zero:
-        return None
-    return _span(1 / a.high, 1 / a.low, 1 / a.magnitude)
-
-
-def join(a: Span, b: Span) -> Span:
-    return Span(min(a.low, b.low), max(a.high, b.high), min(a.floor, b.floor))
 
 
 def value_range(ctx: Context, expr: ast.expr, depth: int = 10) -> Span | None:
@@ -145,19 +76,6 @@ def _binop(ctx: Context, expr: ast.BinOp, depth: int) -> Span | None:
     return apply(expr.op, left, right)
 
 
-def apply(op: ast.operator, left: Span, right: Span) -> Span | None:
-    if isinstance(op, ast.Add):
-        return add(left, right)
-    if isinstance(op, ast.Sub):
-        return add(left, negate(right))
-    if isinstance(op, ast.Mult):
-        return multiply(left, right)
-    if isinstance(op, ast.Div):
-        inverse = reciprocal(right)
-        return multiply(left, inverse) if inverse is not None else None
-    return None
-
-
 def _call_range(ctx: Context, call: ast.Call, depth: int) -> Span | None:
     family = ctx.family(call)
     if family in ("abs", "fabs", "absolute") and len(call.args) == 1:
@@ -165,7 +83,7 @@ def _call_range(ctx: Context, call: ast.Call, depth: int) -> Span | None:
         if inner is None:
             return None
         low = 0.0 if not inner.excludes_zero else min(abs(inner.low), abs(inner.high))
-        return _span(low, inner.magnitude, inner.floor)
+        return make_span(low, inner.magnitude, inner.floor)
     method = _float64_draw(ctx, call)
     return _draw(call, method) if method is not None else None
 
@@ -194,7 +112,7 @@ def _spelled_name(func: ast.expr) -> str | None:
 
 
 def _draw(call: ast.Call, method: str) -> Span | None:
-    unit = Span(0.0, 1.0, _UNIT)
+    unit = Span(0.0, 1.0, UNIT)
     if method in _STANDARD:
         return unit
     if method != "uniform":
@@ -208,8 +126,8 @@ def _draw(call: ast.Call, method: str) -> Span | None:
             return None
         bounds.append(float(value))
     low, high = bounds
-    scaled = multiply(unit, constant(high - low)) if high != low else constant(0.0)  # numpy: low + (high - low) * U
-    start = constant(low)
+    width, start = constant(high - low), constant(low)  # numpy: low + (high - low) * U
+    scaled = multiply(unit, width) if width is not None else None
     return add(start, scaled) if scaled is not None and start is not None else None
 
 
@@ -276,9 +194,15 @@ def _between(ctx: Context, name: ast.Name, start: ast.AST) -> list[ast.stmt]:
     loop) that store into the array or hand it on, in source order."""
     begin, end = (getattr(start, "lineno", 0), getattr(start, "end_lineno", 0)), (name.lineno, name.col_offset)
     looped = bool(ctx.enclosing_loops(name))
+    holding = {id(a) for a in ctx.ancestors(name)}  # the statements around the use read it, they do not change it
     found: list[ast.stmt] = []
     for node in walk(ctx.scope(name)):
         if not isinstance(node, ast.stmt) or node is start:
+            continue
+        if id(node) in holding:  # a statement around the use: only its header could hand the array on
+            header = [getattr(node, f, None) for f in ("test", "iter", "items")]
+            if any(h is not None and _escapes(ctx, h, name.id) for h in header if not isinstance(h, list)):
+                found.append(node)
             continue
         where = (node.lineno, node.col_offset)
         if where <= (begin[1], 1 << 30) or not (where < end or looped):
@@ -290,6 +214,7 @@ def _between(ctx: Context, name: ast.Name, start: ast.AST) -> list[ast.stmt]:
 
 def _store(stmt: ast.AST, name: str) -> tuple[ast.Subscript, ast.operator | None, ast.expr] | None:
     """(target, operator or None for `=`, value) for `name[...] op= value` / `name[...] = value`."""
+    targets: list[ast.expr]
     if isinstance(stmt, ast.AugAssign):
         targets, op = [stmt.target], stmt.op
     elif isinstance(stmt, ast.Assign):
@@ -302,7 +227,7 @@ def _store(stmt: ast.AST, name: str) -> tuple[ast.Subscript, ast.operator | None
     return None
 
 
-def _escapes(ctx: Context, stmt: ast.stmt, name: str) -> bool:
+def _escapes(ctx: Context, stmt: ast.AST, name: str) -> bool:
     """True when the statement hands the whole array on (an alias, a call argument, a method call)
     or stores into it in a form `_store` does not read (`name[i][j] = v`, `name += v`)."""
     for node in walk(stmt):

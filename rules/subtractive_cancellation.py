@@ -89,7 +89,7 @@ def _reflected_logs(ctx: Context, family: str, a: ast.expr, b: ast.expr) -> bool
         others = [(t, s) for t, s in terms if p.literal_number(t) is None]
         if len(terms) != 2 or len(constants) != 1 or len(others) != 1 or others[0][1] > 0:
             continue
-        k = constants[0][0] * constants[0][1]  # type: ignore[operator]
+        k = float(constants[0][0]) * constants[0][1]  # type: ignore[arg-type]
         if any(p.same_expr(others[0][0], v) for v in (x, ctx.origin(x))) and _REFLECTION[0] <= k <= _REFLECTION[1]:
             return True
     return False

@@ -147,7 +147,7 @@ def test_log_odds_difference_costs_no_more_than_the_input_rounding(p):
     with mpmath.workdps(50):
         exact = mpmath.log(mpmath.mpf(p)) - mpmath.log(1 - mpmath.mpf(p))
         assert abs(computed - exact) <= 4 * 2.0**-52
-    assert findings(f"import numpy as np\ndef f(p):\n    return np.log(p) - np.log(1 - p)\n", "subtractive-cancellation") == []
+    assert findings("import numpy as np\ndef f(p):\n    return np.log(p) - np.log(1 - p)\n", "subtractive-cancellation") == []
 
 
 def test_series_sign_must_be_a_factor_that_changes_per_pass():

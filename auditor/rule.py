@@ -96,6 +96,7 @@ class Context:
         self.source = source
         self._imports: ImportTable | None = None
         self._flows: dict[int, ScopeFlow] = {}
+        self._values: dict[int, ast.expr | None] = {}
         self._memo: dict[tuple[str, int], Any] = {}
         self._qualnames: dict[int, tuple[ast.AST, str | None]] = {}
         self._families: dict[int, tuple[ast.AST, str | None]] = {}
@@ -238,17 +239,28 @@ class Context:
 
     # -- data flow -------------------------------------------------------
     def flow(self, scope: ast.AST) -> ScopeFlow:
-        key = id(scope)
-        if key not in self._flows:
-            self._flows[key] = analyse_scope(scope, walrus=":=" in self.source)
-        return self._flows[key]
+        try:
+            return self._flows[id(scope)]
+        except KeyError:
+            found = self._flows[id(scope)] = analyse_scope(scope, walrus=":=" in self.source)
+            return found
 
     def binding(self, name: ast.Name) -> Binding | None:
         """The binding of `name` that reaches this use in its scope (last one before it)."""
         return self.flow(self.scope(name)).reaching(name.id, name.lineno, name.col_offset)
 
     def value_of(self, name: ast.Name) -> ast.expr | None:
-        """The expression last assigned to `name`, when a plain assignment reaches it."""
+        """The expression last assigned to `name`, when a plain assignment reaches it (memoised for
+        the tree's own nodes: rules ask about the same names many times)."""
+        key = id(name)
+        if key in self._values:
+            return self._values[key]
+        value = self._value_of(name)
+        if key in self._parents:  # a node of this tree, alive as long as the context: its id is stable
+            self._values[key] = value
+        return value
+
+    def _value_of(self, name: ast.Name) -> ast.expr | None:
         b = self.binding(name)
         if b is None or b.kind not in ("assign", "unpack") or b.value is None:
             return None

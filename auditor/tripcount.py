@@ -71,21 +71,22 @@ def _name_bound(ctx: Context, name: ast.Name, depth: int) -> int | None:
     if len(bindings) == 1 and isinstance(bindings[0].stmt, ast.arg) and isinstance(scope, ast.FunctionDef):
         return _parameter_bound(ctx, scope, name.id, depth)  # a parameter never rebound in the body
     if not bindings or any(b.kind not in ("assign", "unpack") or b.value is None for b in bindings) \
-            or _grown(scope, name.id):
+            or name.id in ctx.cached("tripcount:grown", scope, lambda: _grown_names(scope)):
         return None
     found = [item_bound(ctx, b.value, depth - 1) for b in bindings if b.value is not None]
     return None if None in found else max(found)  # type: ignore[type-var]
 
 
-def _grown(scope: ast.AST, name: str) -> bool:
-    """`name.append(v)`, `name[k:k] = ...`: the sequence may be longer than when it was built."""
+def _grown_names(scope: ast.AST) -> frozenset[str]:
+    """Names `name.append(v)`, `name[k:k] = ...` touch in the scope: those sequences may be longer
+    than when they were built (one walk per scope, shared by every loop in it)."""
+    found = set()
     for n in ast.walk(scope):
-        if isinstance(n, ast.Attribute) and n.attr in _GROWING and isinstance(n.value, ast.Name) and n.value.id == name:
-            return True
-        if isinstance(n, ast.Subscript) and isinstance(n.ctx, ast.Store) and isinstance(n.value, ast.Name) \
-                and n.value.id == name:
-            return True
-    return False
+        if isinstance(n, ast.Attribute) and n.attr in _GROWING and isinstance(n.value, ast.Name):
+            found.add(n.value.id)
+        elif isinstance(n, ast.Subscript) and isinstance(n.ctx, ast.Store) and isinstance(n.value, ast.Name):
+            found.add(n.value.id)
+    return frozenset(found)
 
 
 def _parameter_bound(ctx: Context, func: ast.FunctionDef, param: str, depth: int) -> int | None:

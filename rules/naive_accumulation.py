@@ -387,10 +387,8 @@ class NaiveAccumulation(Rule):
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
         assert isinstance(node, ast.For)
-        if short_fixed(ctx, node) or group_loop(ctx, node):
-            return
-        accs = accumulations(node)
-        if moments_loop(node, accs):
+        accs = accumulations(node)  # cheap and usually empty: the loop-length facts below walk whole scopes
+        if not accs or moments_loop(node, accs) or short_fixed(ctx, node) or group_loop(ctx, node):
             return
         for acc in accs:
             if wanted(ctx, node, acc):

@@ -175,3 +175,24 @@ def applied_again(ctx: Context, holder: ast.expr, product: ast.AST) -> bool:
         key = (id(block), *way)
         runs[key] = runs.get(key, 0) + 1
     return any(count >= 2 for count in runs.values())
+
+
+def updated_state(ctx: Context, holder: ast.expr) -> bool:
+    """True when the local holding the inverse is later rebound by adding to or subtracting from its own value
+    (`ainv = ainv - u @ u.T / d`, `ainv -= ...`): a Sherman-Morrison or Woodbury recursion whose state is the
+    inverse itself, so every later product needs the inverse and a solve would have to replace the recursion."""
+    if not isinstance(holder, ast.Name):
+        return False
+    start = ctx.binding(holder)
+    if start is None or inverted(ctx, holder) is None:
+        return False
+    for later in ctx.flow(ctx.scope(holder)).of(holder.id):
+        if (later.line, later.column) <= (start.line, start.column) or later.value is None:
+            continue
+        if later.kind == "aug" and isinstance(later.op, (ast.Add, ast.Sub)):
+            return True
+        value = later.value
+        if later.kind == "assign" and isinstance(value, ast.BinOp) and isinstance(value.op, (ast.Add, ast.Sub)) \
+                and any(isinstance(side, ast.Name) and side.id == holder.id for side in (value.left, value.right)):
+            return True
+    return False

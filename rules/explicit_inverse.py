@@ -15,6 +15,12 @@ right-hand sides (then lstsq would be a second SVD). A product checked against t
 the matrix at both its ends (`assert_allclose(inv(A) @ B, I)`, `norm(A @ X @ A - A) < tol`) tests the
 inverse and is not flagged; `I - A X` used in further computation is. An inverse kept as a value and also applied to a right-hand side is
 a note: the inverse costs nothing extra, but its product is still not backward stable as a solve is.
+Three more cases are not flagged. The inverse of a unitary factor a factorisation returned (U or Vh of an
+svd, Q of a qr, the eigenvectors of a standard eigh, Z of a Schur form) has condition number 1, so it loses
+nothing (it is the conjugate transpose). A pseudo-inverse multiplied by a matrix the code shows to be square
+(a Gram product T'T, eye(k), a covariance) gives a product as large as pinv(A) itself, so lstsq would form the
+same numbers at the same cost. An inverse the function later updates from its own value (`Ainv = Ainv - t t' / f`,
+a Sherman-Morrison or Woodbury recursion) is the algorithm's state, needed as such at every step.
 """
 from __future__ import annotations
 
@@ -24,9 +30,11 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
 from auditor.copies import data_source
+from auditor.factor_outputs import unitary_factor
 from auditor.inverse_checks import checks_identity, same_matrix
-from auditor.inverse_use import applied_again, chain_top, inverted, kept_as_value, two_sided
+from auditor.inverse_use import applied_again, chain_top, inverted, kept_as_value, two_sided, updated_state
 from auditor.nodes import walk
+from auditor.square_matrices import square_matrix
 
 #: linear-algebra modules that offer `solve` and `lstsq` with numpy's meaning
 _SOLVERS = ("numpy.linalg", "scipy.linalg", "jax.numpy.linalg", "torch.linalg", "cupy.linalg")
@@ -204,6 +212,26 @@ class ExplicitInverse(Rule):
         Example("from scipy.linalg import inv\nimport numpy as np\ndef f(a, b, q):\n    eye = np.eye(a.shape[0])\n"
                 "    return np.dot(np.dot(inv(a + eye), q), inv(b + eye))\n", True,
                 note="inverses of two different matrices around Q are two solves"),
+        Example("import numpy as np\nfrom scipy.linalg import inv, svd\ndef rotate(c):\n"
+                "    u, s, wh = svd(c, full_matrices=False)\n    return np.dot(c, inv(wh))\n", False,
+                note="Vh of an svd is unitary, condition number 1: its inverse loses nothing (field trial)"),
+        Example("from scipy.linalg import eigh, inv\ndef f(a, b, x):\n    w, v = eigh(a, b)\n    return inv(v) @ x\n",
+                True, note="eigenvectors of a generalised eigh are B-orthonormal, not unitary"),
+        Example("import numpy as np\nclass Loadings:\n    def _corr(self):\n        t = self.rotation\n"
+                "        return t.T.dot(t)\n    def score_params(self, L):\n"
+                "        return self._corr().dot(np.linalg.pinv(L)).T\n", False,
+                note="a square multiplier (a Gram T'T) makes M pinv(L) as large as pinv(L): lstsq saves nothing (field trial)"),
+        Example("import numpy as np\nclass Loadings:\n    def _head(self):\n        return self.rotation[:2]\n"
+                "    def score_params(self, L):\n        return self._head().dot(np.linalg.pinv(L))\n", True,
+                note="a multiplier of unknown shape may have few rows: lstsq avoids forming pinv(L)"),
+        Example("import numpy as np\ndef recursive_fit(x, y, k):\n    xtxi = np.linalg.inv(x[:k].T @ x[:k])\n"
+                "    beta = xtxi @ (x[:k].T @ y[:k])\n    for i in range(k, len(y)):\n        t = xtxi @ x[i]\n"
+                "        f = 1 + x[i] @ t\n        xtxi = xtxi - np.outer(t, t) / f\n"
+                "        beta = beta + t * (y[i] - x[i] @ beta) / f\n    return beta\n", False,
+                note="the inverse is the state of a Sherman-Morrison recursion, needed as such at every step (field trial)"),
+        Example("import numpy as np\ndef f(a, b, c, d):\n    ai = np.linalg.inv(a)\n    x = ai @ b\n"
+                "    ai = np.linalg.inv(c)\n    return x, ai @ d\n", True,
+                note="a local rebound to another inverse is not an updated one"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -215,6 +243,8 @@ class ExplicitInverse(Rule):
             if found is None:
                 continue
             kind, call = found
+            if unitary_factor(ctx, call.args[0]):
+                return  # U or Vh of an svd, Q of a qr: condition number 1, the inverse loses nothing
             if kind == "inv" and p.gram_base(ctx, call.args[0]) is not None:
                 return  # inv(A.T @ A) is least squares: the normal-equations rule reports it
             rhs = factors[1 - index]
@@ -228,6 +258,10 @@ class ExplicitInverse(Rule):
                 return  # P @ M @ P.T with P an inverse: a congruence whose factors are the goal
             if two_sided(ctx, node, factors[index]):
                 return  # A^-1 M A^-1: a sandwich covariance, the inverse is part of the goal
+            if updated_state(ctx, factors[index]):
+                return  # the inverse is the state of a rank-one update recursion: needed as such at every step
+            if kind == "pinv" and square_matrix(ctx, rhs):
+                return  # M square: M pinv(A) is as large as pinv(A), lstsq would form the same numbers at the same cost
             if kind == "pinv" and _reused(ctx, node, call):
                 return  # pinv(A) applied to every item of a loop: computed once, used many times
             if kind == "pinv" and applied_again(ctx, factors[index], node):

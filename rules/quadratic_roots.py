@@ -6,7 +6,10 @@ b = 1e8 the small root comes out 25% wrong, and for larger b it is 0. The other 
 The stable method takes q = -0.5*(b + copysign(sqrt(b*b - 4*a*c), b)), which only adds numbers
 of one sign, and the roots q/a and c/q (Vieta: the product of the roots is c/a). For one
 root written alone, the equal form 2*c / (-b ∓ sqrt(...)) is used on the side of the sign of b
-where the textbook form cancels.
+where the textbook form cancels. A root that is only ever converted to a whole number (`int(r)`,
+`math.ceil(r)`, directly or through a local), such as a batch size or a count, is not flagged: after
+the conversion only its absolute error counts, and the textbook form's is about eps*|b|, far below one
+unit unless |b| reaches 1/eps (about 4.5e15).
 """
 from __future__ import annotations
 
@@ -17,6 +20,7 @@ from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
 from auditor.elementary import RootSum, is_discriminant, root_sum, spelled_like, stable_origin
+from auditor.integer_uses import rounded_to_integer
 from auditor.nodes import walk
 
 _MSG = ("when b*b is much larger than |4*a*c| one root of the textbook formula cancels (for a = c = 1, b = 1e8 "
@@ -136,6 +140,12 @@ class QuadraticRoots(Rule):
                 "    return q / a, c / q\n", False, note="the stable method itself"),
         Example("import math\ndef f(a, b, c):\n    return (-b + math.sqrt(b * b + a * c)) / (2 * a)\n", False,
                 note="not a discriminant b*b - 4*a*c"),
+        Example("import math\ndef batch(k, mem):\n    n = (-k + math.sqrt(k**2 + 4 * mem)) / 2\n"
+                "    n = max(int(n), 1)\n    return n\n", False,
+                note="a root only converted to a whole number: its absolute error, eps*|b|, is far below 1 (field trial)"),
+        Example("import math\ndef scaled(k, mem):\n    n = (-k + math.sqrt(k**2 + 4 * mem)) / 2\n"
+                "    return int(n), n / k\n", True,
+                note="the root is also used as a real number: its relative error counts there"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -146,6 +156,9 @@ class QuadraticRoots(Rule):
         if shape is None or not is_discriminant(shape) or sign_guarded(ctx, node, shape.other):
             return
         assert isinstance(node, ast.expr)
+        halved = halved_by(ctx, node)
+        if rounded_to_integer(ctx, halved[0] if halved else node):
+            return  # a count: its absolute error, about eps*|b|, stays far below one unit
         if not stable_origin(ctx, shape.radicand, node):
             yield Hit(node, _MSG)
             return

@@ -9,7 +9,10 @@ coordinates apart: it knows the quadrant and never divides. Where x is known pos
 positive literals) the two are equal and atan2 only removes the division; there the finding is
 a note and the rewrite is exact. In the expected value of a check (`assert_allclose(y,
 np.arctan(a / b))`) the formula has to follow the code it checks, so the finding is a note there
-too, without a rewrite. Elsewhere the rewrite is not
+too, without a rewrite, also when a local carries it there. Two entries of one eigen- or singular vector
+(`u[1] / u[0]` with u a column of eigh's output, normalised or not) are not flagged: the vector's sign is
+arbitrary, so the angle is an axis orientation defined modulo pi, which atan's half range covers; atan2
+would only add an arbitrary pi. Elsewhere the rewrite is not
 offered, because atan2 changes the value for x < 0: that is the fix only when a full-circle
 angle is meant, which the author has to confirm. An atan divided by pi (`0.5 + atan(z) / pi`, a
 Cauchy-type cdf, or `(2 / pi) * atan(z)`) maps the half range onto an interval on purpose: z is a
@@ -25,6 +28,7 @@ from auditor import algebra as alg
 from auditor import patterns as p
 from auditor.draw_ranges import value_range
 from auditor.elementary import is_nonnegative, reads_variables, spelled_like, stable_origin
+from auditor.factor_outputs import eigenvector_source
 from auditor.nodes import walk
 
 #: checks that compare two values besides the `assert...` family (numpy API)
@@ -86,6 +90,30 @@ def reference_formula(ctx: Context, node: ast.AST) -> bool:
     return False
 
 
+def expected_through_local(ctx: Context, node: ast.AST) -> bool:
+    """True when the atan, through arithmetic, is the value of a local every read of which sits in the expected
+    value of a check (`angle = 180 * np.arctan(a / b) / np.pi; assert_allclose(got, 180 + angle)`)."""
+    top = node
+    while isinstance(ctx.parent(top), (ast.BinOp, ast.UnaryOp)):
+        top = ctx.parent(top)  # type: ignore[assignment]
+    stmt = ctx.parent(top)
+    if not (isinstance(stmt, ast.Assign) and stmt.value is top and len(stmt.targets) == 1
+            and isinstance(stmt.targets[0], ast.Name)):
+        return False
+    name, scope = stmt.targets[0].id, ctx.scope(stmt)
+    reads = [n for n in walk(scope) if isinstance(n, ast.Name) and n.id == name and isinstance(n.ctx, ast.Load)]
+    seen = [n for n in reads if (b := ctx.binding(n)) is not None and b.stmt is stmt]
+    return bool(seen) and len(seen) == len(reads) and all(reference_formula(ctx, n) for n in seen)
+
+
+def axis_components(ctx: Context, y: ast.expr, x: ast.expr) -> bool:
+    """True for two entries of one eigen- or singular vector (`u[1] / u[0]` with u a column of eigh's output,
+    normalised or not): its sign is arbitrary, so the angle is an axis orientation, defined modulo pi."""
+    if not (isinstance(y, ast.Subscript) and isinstance(x, ast.Subscript) and p.same_expr(y.value, x.value)):
+        return False
+    return eigenvector_source(ctx, y.value) is not None
+
+
 def _is_check(call: ast.Call) -> bool:
     func = call.func
     name = func.id if isinstance(func, ast.Name) else func.attr if isinstance(func, ast.Attribute) else ""
@@ -131,6 +159,14 @@ class AtanOfRatio(Rule):
                 "def test_bench3():\n    X, y = make_bench3(n_samples=5)\n"
                 "    assert_allclose(y, np.arctan(X[:, 1] * X[:, 2] / X[:, 0]))\n", True,
                 note="the expected value of a check must spell the formula it checks: a note, no rewrite (field trial)"),
+        Example("import numpy as np\ndef ellipse_angle(cov):\n    v, w = np.linalg.eigh(cov)\n"
+                "    u = w[0] / np.linalg.norm(w[0])\n    return 180 * np.arctan(u[1] / u[0]) / np.pi\n", False,
+                note="an eigenvector's sign is arbitrary: its angle is an axis orientation mod 180 degrees (field trial)"),
+        Example("import numpy as np\ndef f(cov):\n    v, w = np.linalg.eigh(cov)\n    return np.arctan(v[1] / v[0])\n",
+                True, note="a quotient of eigenvalues is not an axis"),
+        Example("import numpy as np\nfrom numpy.testing import assert_allclose\ndef test_tilt(probe):\n"
+                "    angle = 180 * np.arctan(probe.dz / probe.dx) / np.pi\n    assert_allclose(probe.tilt(), 180 + angle)\n",
+                True, note="a local only read in the expected value of a check: a note, no rewrite (field trial)"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -150,7 +186,9 @@ class AtanOfRatio(Rule):
             return
         if divided_by_pi(ctx, node):
             return  # the half range normalised to an interval (a cdf): the quotient is a standardised variable
-        if not never_negative(ctx, x) and reference_formula(ctx, node):
+        if axis_components(ctx, y, x):
+            return  # an eigenvector's sign is arbitrary: its angle is an orientation mod pi, atan's half range
+        if not never_negative(ctx, x) and (reference_formula(ctx, node) or expected_through_local(ctx, node)):
             yield Hit(node, "atan(y / x) in the expected value of a check has to follow the code it checks; if that "
                       "code means the angle of the point (x, y), both need atan2(y, x)", severity=Severity.NOTE)
             return

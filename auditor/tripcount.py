@@ -8,6 +8,8 @@ from auditor.rule import Context
 
 #: calls that walk their one argument item for item, no more items than it has
 _SAME_LENGTH = frozenset({"list", "tuple", "set", "sorted", "reversed", "enumerate", "iter", "frozenset"})
+#: numpy-API constructors that keep a literal nested list's rows as the array's first axis
+_ARRAYS = frozenset({"array", "asarray", "asanyarray"})
 #: methods that grow a list in place: a list built once but grown later has no fixed length
 _GROWING = frozenset({"append", "extend", "insert", "__iadd__"})
 
@@ -15,9 +17,10 @@ _GROWING = frozenset({"append", "extend", "insert", "__iadd__"})
 def item_bound(ctx: Context, it: ast.AST, depth: int = 6) -> int | None:
     """The most items `it` can yield as the code fixes it, or None when open.
 
-    A literal tuple/list/set; `range(...)` with a bounded stop (`patterns.int_bounds`, or `len` of a
+    A literal tuple/list/set (or numpy array of one); `range(...)` with a bounded stop (`patterns.int_bounds`, or `len` of a
     bounded sequence); `list(x)`, `enumerate(x)`, `zip(a, b)`; a comprehension (filters only drop
-    items); a local bound only to such values and never grown; a parameter of a private function
+    items); a local bound only to such values and never grown; a module-level name bound once to such
+    a value that nothing in the file rebinds, grows or stores into; a parameter of a private function
     whose every call in the module passes such a value.
     """
     if depth <= 0:
@@ -28,6 +31,9 @@ def item_bound(ctx: Context, it: ast.AST, depth: int = 6) -> int | None:
         return _product([item_bound(ctx, g.iter, depth - 1) for g in it.generators])
     if isinstance(it, ast.Name):
         return _name_bound(ctx, it, depth)
+    if isinstance(it, ast.Call) and ctx.family(it) in _ARRAYS and len(it.args) == 1 \
+            and isinstance(it.args[0], (ast.Tuple, ast.List)):
+        return item_bound(ctx, it.args[0], depth - 1)  # np.array([[w, x], ...]) walks its first axis: one row per item
     if isinstance(it, ast.Call) and isinstance(it.func, ast.Name) and not it.keywords \
             and not any(isinstance(a, ast.Starred) for a in it.args) and it.func.id not in ctx.imports.bindings:
         name, args = it.func.id, it.args
@@ -70,11 +76,45 @@ def _name_bound(ctx: Context, name: ast.Name, depth: int) -> int | None:
     bindings = ctx.flow(scope).of(name.id)
     if len(bindings) == 1 and isinstance(bindings[0].stmt, ast.arg) and isinstance(scope, ast.FunctionDef):
         return _parameter_bound(ctx, scope, name.id, depth)  # a parameter never rebound in the body
+    if not bindings and scope is not ctx.tree:
+        return _module_constant_bound(ctx, name, depth)  # a free name in a function: the module's, if bound there
     if not bindings or any(b.kind not in ("assign", "unpack") or b.value is None for b in bindings) \
             or name.id in ctx.cached("tripcount:grown", scope, lambda: _grown_names(scope)):
         return None
     found = [item_bound(ctx, b.value, depth - 1) for b in bindings if b.value is not None]
     return None if None in found else max(found)  # type: ignore[type-var]
+
+
+def _module_constant_bound(ctx: Context, name: ast.Name, depth: int) -> int | None:
+    """Bound of a module-level name bound once, by plain assignment, that no statement in the file rebinds
+    (`global`), grows or stores into, read from a function that does not bind it itself (a constant table)."""
+    for scope in ctx.ancestors(name):
+        if isinstance(scope, ast.ClassDef) and not _in_function_of(ctx, name, scope):
+            return None  # read in a class body: the class's own names come first
+        if isinstance(scope, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)) and ctx.flow(scope).of(name.id):
+            return None  # an enclosing function binds it
+    bindings = ctx.flow(ctx.tree).of(name.id)
+    if len(bindings) != 1 or bindings[0].kind != "assign" or bindings[0].value is None \
+            or name.id in ctx.imports.bindings:
+        return None
+    tree = ctx.tree
+    changed = ctx.cached("tripcount:module-changed", tree, lambda: _grown_names(tree) | _declared_global(tree))
+    return None if name.id in changed else item_bound(ctx, bindings[0].value, depth - 1)
+
+
+def _in_function_of(ctx: Context, name: ast.Name, cls: ast.ClassDef) -> bool:
+    """True when a function nested in `cls` holds `name`: methods do not see the class body's names."""
+    for anc in ctx.ancestors(name):
+        if anc is cls:
+            return False
+        if isinstance(anc, (ast.FunctionDef, ast.AsyncFunctionDef, ast.Lambda)):
+            return True
+    return False
+
+
+def _declared_global(tree: ast.AST) -> frozenset[str]:
+    """Names any function declares `global` or `nonlocal`: it may rebind them."""
+    return frozenset(n for node in ast.walk(tree) if isinstance(node, (ast.Global, ast.Nonlocal)) for n in node.names)
 
 
 def _grown_names(scope: ast.AST) -> frozenset[str]:

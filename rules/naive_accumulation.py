@@ -6,7 +6,7 @@ have mixed signs and the total is small. Pairwise summation (numpy's `np.sum` on
 float arrays) grows like log2(n) * eps, Kahan's compensated summation keeps the error near
 eps independent of n, and `math.fsum` returns the correctly rounded sum. Integer counters,
 short fixed loops (a range the code bounds by a small number, a literal table a private helper
-receives from every caller), loops over groups (a function's `*args`, the bins of a tally,
+receives from every caller or a module-level one nothing rebinds or grows), loops over groups (a function's `*args`, the bins of a tally,
 per-group partial sums, inner products over lagged tails of the data), passes that add a whole
 slab of an array or need a matrix power, product or factorisation, iterations whose total flows
 back into its own terms (Newton, optimisers), string or list building, series with a term
@@ -383,6 +383,14 @@ class NaiveAccumulation(Rule):
         Example("import numpy as np\ndef window_energy(x, w, n):\n    e = 0.0\n    for i in range(n):\n"
                 "        d = np.dot(x[i:i + 4], w)\n        e += d / 4.0\n    return e\n", True,
                 note="a short window that moves with the pass is one term per item: still a long sum"),
+        # Gauss-Legendre 3-point weights and nodes (Abramowitz & Stegun table 25.4, from memory)
+        Example("import numpy as np\nGL3 = [[0.5555555555555556, -0.7745966692414834], [0.8888888888888888, 0.0],\n"
+                "       [0.5555555555555556, 0.7745966692414834]]\n\n\nclass Smoother:\n    def grad(self, h, x):\n"
+                "        g = 0.0\n        for w in GL3:\n            g += w[0] * h(w[1]) * x\n        return g\n", False,
+                note="a module-level literal table of 3 nodes, never rebound or grown: a short fixed loop (field trial)"),
+        Example("GL3 = [0.5555555555555556, 0.8888888888888888, 0.5555555555555556]\n\n\ndef extend(more):\n"
+                "    GL3.extend(more)\n\n\ndef total(x):\n    s = 0.0\n    for w in GL3:\n        s += w * x\n    return s\n",
+                True, note="a module-level list another function grows has no fixed length"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:

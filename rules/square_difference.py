@@ -8,11 +8,16 @@ relative error reaches the result: under a root (sqrt(1 - c*c) for a sine), as a
 under a log. As one summand of a larger polynomial (`a + b*(1 - x*x)`) only its absolute error,
 below one unit of 1, reaches the sum, so it is left alone there; the same holds for a term of a
 sum or mean over samples (`((1 - x**2) * w).mean()`, directly or through a local only ever
-summed), for a root finder's objective (only its sign and absolute size count), and for the
-argument of a function flat and nonzero at 0 (exp, cos, the elliptic integral K). Nor is it
-reported when the code bounds |x| well below 1 (`sqrt(2/pi) * a/sqrt(1 + a**2)`), when both
-sides are whole numbers (tie counts from `return_counts=True`), or when the values are spelled
-out and never within 5% of each other except where they are equal. The factored form
+summed), for a factor named first (`c = (1 - t*t)/(1 + t*t)` used only in `c*u + s*v`), for a
+root finder's objective (only its sign and absolute size count), and for the argument of a
+function flat and nonzero at 0 (exp, cos, the elliptic integral K), also through a root when the
+function is even (`i0(beta*sqrt(1 - x*x))` is analytic in 1 - x*x). Divided differences of
+squared ordinates in Newton's interpolation form, `y1sq + (y2sq - y1sq)/(v2 - v1)*(v - v1)`, are
+as accurate as the rounded ordinate y1sq the sum holds anyway. Nor is it reported when the code
+bounds |x| well below 1 (`sqrt(2/pi) * a/sqrt(1 + a**2)`), when both sides are whole numbers (tie
+counts from `return_counts=True`, parameters a distribution's `_argcheck` requires to be
+integral), or when the values are spelled out (entries of a literal matrix too) and never within
+5% of each other except where they are equal. The factored form
 (x - y)*(x + y) subtracts the inputs themselves, which is exact when they are within a factor of
 two of each other (Sterbenz), so the result is accurate to a few units in the last place.
 For `1 - cos(t)**2` the identity sin(t)**2 is better still.
@@ -26,12 +31,15 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
+from auditor.absolute_uses import even_root_argument, summand_through_locals
+from auditor.arg_checks import checked_whole
 from auditor.counts import whole_or_count
+from auditor.divided_differences import interpolation_ordinates
+from auditor.literal_entries import entry_values
 from auditor.magnitude import magnitude_bound
 from auditor.positions import relative_position
 from auditor.tallies import tally
 from auditor.use_sites import flat_call_argument, only_summed, solver_objective
-from auditor.values import known_values
 from auditor.elementary import (
     difference_operands, reads_variables, related, spelled_like, square_base, stable_origin,
 )
@@ -80,7 +88,7 @@ def spelled_apart(ctx: Context, x: ast.expr, y: ast.expr) -> bool:
     """True when both sides take only values the code spells out and their squares are either equal
     in size (|x| == |y| up to a grid node's rounding: the same node, an exact 0) or never within 5% of
     each other (then at most about one digit is lost): a grid np.linspace(-1, 1) against 1."""
-    xs, ys = known_values(ctx, x), known_values(ctx, y)
+    xs, ys = entry_values(ctx, x), entry_values(ctx, y)
     if xs is None or ys is None:
         return False
     if len(xs) != len(ys) and 1 not in (len(xs), len(ys)):
@@ -108,8 +116,10 @@ def far_from_one(ctx: Context, x: ast.expr) -> bool:
 
 def absolute_use(ctx: Context, node: ast.AST) -> bool:
     """True when only the absolute error of 1 - x*x reaches a result: a term of a sum or mean over
-    samples, the objective of a root finder, the argument of a function flat and nonzero at 0."""
-    return only_summed(ctx, node) or solver_objective(ctx, node) or flat_call_argument(ctx, node)
+    samples, the objective of a root finder, the argument of a function flat and nonzero at 0 (also
+    through a root when the function is even: i0(beta*sqrt(1 - x*x)) is analytic in 1 - x*x)."""
+    return only_summed(ctx, node) or solver_objective(ctx, node) or flat_call_argument(ctx, node) \
+        or even_root_argument(ctx, node)
 
 
 class SquareDifference(Rule):
@@ -182,6 +192,43 @@ class SquareDifference(Rule):
                 False, note="K(m) is flat and nonzero at m = 0: a relative error in m barely moves it (field trial)"),
         Example("from scipy import special\ndef order(arg0):\n    return special.ellipkm1(1 - arg0**2)\n",
                 True, note="K(1 - p) has a log singularity at p = 0: not flat there"),
+        Example("import numpy as np\ndef test_stationary_cov():\n    transition = np.array([[0.5, -0.2], [0.1, 0.8]])\n"
+                "    return 1.2 / (1 - transition[0, 0] ** 2), 0.4 / (1 - transition[1, 1] ** 2)\n", False,
+                note="entries of a literal matrix picked by constant indices: 1 - 0.25 and 1 - 0.64 (field trial)"),
+        Example("import numpy as np\ndef test_stationary_cov(phi):\n    transition = np.array([[0.5, -0.2], [0.1, 0.8]])\n"
+                "    transition[0, 0] = phi\n    return 1.2 / (1 - transition[0, 0] ** 2)\n", True,
+                note="the entry is overwritten with a parameter: the literal no longer says what it holds"),
+        Example("import numpy as np\nfrom scipy.stats import rv_discrete\nfrom scipy.stats._distn_infrastructure import _isintegral\n"
+                "class dice_gen(rv_discrete):\n    def _argcheck(self, low, high):\n"
+                "        return (high > low) & _isintegral(low) & _isintegral(high)\n\n"
+                "    def _stats(self, low, high):\n        d = np.asarray(high) - np.asarray(low)\n"
+                "        return (d*d - 1) / 12.0\n", False,
+                note="the class's _argcheck keeps low and high whole: d*d is exact, d = 1 gives an exact 0 (field trial)"),
+        Example("import numpy as np\nfrom scipy.stats import rv_continuous\n"
+                "class slab_gen(rv_continuous):\n    def _argcheck(self, low, high):\n        return high > low\n\n"
+                "    def _stats(self, low, high):\n        d = np.asarray(high) - np.asarray(low)\n"
+                "        return (d*d - 1) / 12.0\n", True,
+                note="an argument check without integrality: d may be 1 + 1e-9"),
+        Example("import numpy as np\nfrom scipy import special\ndef taper(n, beta):\n    x = np.linspace(-1, 1, n)\n"
+                "    return special.i0(beta * np.sqrt(1 - x**2)) / special.i0(beta)\n", False,
+                note="i0 is even and flat at 0: i0(beta*sqrt(u)) is analytic in u, so only u's absolute error counts "
+                     "(field trial: Kaiser window)"),
+        Example("import numpy as np\ndef taper(x, beta):\n    return np.exp(beta * np.sqrt(1 - x**2))\n", True,
+                note="exp is not even: exp(beta*sqrt(u)) has an infinite slope in u at 0"),
+        Example("import numpy as np\ndef rotate(step, sd, hess_step, t_bd):\n    t = np.linspace(t_bd / 20, t_bd, 20)\n"
+                "    c = (1.0 - t**2) / (1.0 + t**2)\n    s = 2.0 * t / (1.0 + t**2)\n"
+                "    return c[:, None] * step + s[:, None] * sd, (c[-1] - 1.0) * hess_step\n", False,
+                note="the half-angle cosine is only a factor of summands, named first (field trial: rotation step)"),
+        Example("import numpy as np\ndef secant(t, u):\n    c = (1.0 - t**2) / (1.0 + t**2)\n    return u / c\n", True,
+                note="the named quotient is then a divisor: its relative error is the result's"),
+        Example("import math\ndef interp_sq(f, v, v0, v1, v2):\n    y0_sq, y1_sq, y2_sq = f(v0) ** 2, f(v1) ** 2, f(v2) ** 2\n"
+                "    d2 = 2.0 * ((y2_sq - y1_sq) / (v2 - v1) - (y0_sq - y1_sq) / (v0 - v1)) / (v2 - v0)\n"
+                "    d1 = (y1_sq - y0_sq) / (v1 - v0) + 0.5 * d2 * (v1 - v0)\n"
+                "    return math.sqrt(d2 / 2.0 * (v - v1) ** 2 + d1 * (v - v1) + y1_sq)\n", False,
+                note="divided differences of squared ordinates in Newton's form beside the ordinate itself "
+                     "(field trial: quadratic interpolation in a table)"),
+        Example("def rate(x0, x1, t0, t1):\n    return (x1**2 - x0**2) / (t1 - t0)\n", True,
+                note="a slope returned on its own: its relative error is the result's"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -193,15 +240,19 @@ class SquareDifference(Rule):
             return
         if (whole_or_count(ctx, x) and whole_or_count(ctx, y)) or from_reduction(ctx, x) or from_reduction(ctx, y):
             return
-        if all(whole_or_count(ctx, b) or tally(ctx, b) for b in (x, y)):
-            return  # tie counts or unique counts (integers even as floats): the squares are exact
+        if all(whole_or_count(ctx, b) or tally(ctx, b) or checked_whole(ctx, b) for b in (x, y)):
+            return  # tie counts, unique counts, parameters the class's _argcheck keeps whole: exact squares
         if spelled_apart(ctx, x, y):
             return  # the code spells out both sides (r = 0.5 above, literal arrays) and they are never close
         one = p.is_one(x) or p.is_one(y)
         if one and pythagoras(ctx, x, y) is None and not under_root(ctx, node) and not relative_position(ctx, node):
             return  # 1 - x*x as a summand of a polynomial is harmless; as a factor, divisor or radicand it bites
+        if one and pythagoras(ctx, x, y) is None and not under_root(ctx, node) and summand_through_locals(ctx, node):
+            return  # the same, with the factor named first: c = (1 - t*t)/(1 + t*t) used only in c*u + s*v
         if one and (absolute_use(ctx, node) or far_from_one(ctx, y if p.is_one(x) else x)):
             return
+        if not ops.aug and interpolation_ordinates(ctx, node, ops.left_written, ops.right_written):
+            return  # (f2 - f1)/(a2 - a1) in f1 + ...*(v - a1): as accurate as the rounded ordinate f1 itself
         correlated = related(ctx, x, y) or related(ctx, ctx.origin(x), ctx.origin(y))
         rewrite: str | None = None
         imports: tuple[str, ...] = ()

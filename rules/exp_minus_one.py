@@ -5,6 +5,12 @@ what rounding kept of x. For |x| = 1e-8 about half the digits are gone; below th
 roundoff (|x| < 1.1e-16) the result is exactly 0 (or 2.2e-16) instead of about x. The same
 happens to `1 - exp(-x)` and to `exp(x) - 1` reached through a local variable. Every libm
 provides expm1, which evaluates exp(x) - 1 without forming exp(x).
+
+Near x = 0 the direct form's absolute error is still a few units of 1 (about 1e-16), so uses that
+judge only the absolute size are left alone: the residual or objective of a scipy.optimize root
+finder or minimiser (a lambda, or a named function whose every use by name is as the solver's
+objective), and an operand of an absolute-tolerance check (`assert_almost_equal` with a tolerance
+of 1e-12 or more, or `assert_allclose` with rtol=0).
 """
 from __future__ import annotations
 
@@ -16,6 +22,9 @@ from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
 from auditor import polyrange
+from auditor.abs_checks import absolute_check_only
+from auditor.solver_defs import solver_residual
+from auditor.use_sites import solver_objective
 from auditor.values import known_values
 
 #: |u| from which exp(u) - 1 is left alone. Near u = 0 the subtraction magnifies the relative
@@ -87,6 +96,13 @@ def compound_argument(ctx: Context, expr: ast.expr) -> tuple[ast.expr, ast.expr]
     return r, origin.right
 
 
+def only_absolute(ctx: Context, node: ast.AST) -> bool:
+    """The value is judged only by its absolute error: a solver's objective or residual (lambda or named
+    function), or an operand of an absolute-tolerance check. Near 0, where expm1 would help, the
+    direct form's absolute error is a few units of 1, which neither can see."""
+    return solver_objective(ctx, node) or solver_residual(ctx, node) or absolute_check_only(ctx, node)
+
+
 def compound_text(ctx: Context, r: ast.expr, n: ast.expr, negate: bool) -> tuple[str, tuple[str, ...]]:
     """`math.expm1(n * math.log1p(r))` in the file's style (numpy where only numpy is imported)."""
     module = "numpy" if ctx.imports.imports_any("numpy") and not ctx.imports.imports_any("math") else "math"
@@ -136,6 +152,19 @@ class ExpMinusOne(Rule):
                 False, note="a constant set in the code: r = 0.35, nothing cancels (field trial)"),
         Example("import numpy as np\ndef test_decay():\n    t = np.array([1e-9, 2.0])\n    return 1 - np.exp(-t)\n", True,
                 note="spelled out, but one exponent is tiny"),
+        Example("import numpy as np\nfrom numpy.testing import assert_almost_equal\ndef test_step(t, y):\n"
+                "    expected = 1.0 - np.exp(-t)\n    assert_almost_equal(y, expected)\n", False,
+                note="judged only by an absolute tolerance of 1.5e-7: the direct form's error is about 1e-16 "
+                     "(field trial)"),
+        Example("import numpy as np\nfrom numpy.testing import assert_allclose\ndef test_step(t, y):\n"
+                "    expected = 1.0 - np.exp(-t)\n    assert_allclose(y, expected)\n", True,
+                note="a relative tolerance sees the lost digits of a small value"),
+        Example("import numpy as np\nfrom scipy.optimize import root\ndef resid(x):\n    g = np.zeros(2)\n"
+                "    g[0] = np.exp(x[0]) - 1\n    g[1] = x[1] ** 3\n    return g\ndef solve():\n    return root(resid, [1.0, 1.0])\n",
+                False, note="a residual handed to a root finder: only its absolute size is tested (field trial)"),
+        Example("import numpy as np\nfrom scipy.optimize import root\ndef resid(x):\n    return np.exp(x) - 1\n"
+                "def solve():\n    return root(resid, 1.0), resid(1e-9) * 1e9\n", True,
+                note="the same function also evaluated for its value"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -151,7 +180,7 @@ class ExpMinusOne(Rule):
         found = exp_argument(ctx, other)
         if found is None and not p.in_raised_precision(ctx, node):
             compound = compound_argument(ctx, other)
-            if compound is not None and not compound_stays_away(ctx, *compound):
+            if compound is not None and not compound_stays_away(ctx, *compound) and not only_absolute(ctx, node):
                 text, more = compound_text(ctx, *compound, negate)
                 yield Hit(node, "(1 + r)**n - 1 keeps only the digits of r that survive 1 + r: for |r| near 1e-10 "
                           f"half are lost and below 1e-16 it returns 0; use {text}", rewrite=text, imports=more)
@@ -159,8 +188,8 @@ class ExpMinusOne(Rule):
         if found is None or p.in_raised_precision(ctx, node):
             return  # inside mp.workdps(...) the precision is the caller's choice, not double's
         arg, call = found
-        if stays_away_from_zero(ctx, arg):
-            return  # the exponent never comes near 0, so at most about one digit is lost
+        if stays_away_from_zero(ctx, arg) or only_absolute(ctx, node):
+            return  # the exponent never comes near 0, or only the absolute error (about eps) is seen
         rewrite, imports = expm1_text(ctx, call, arg, negate)
         fix = rewrite or "an expm1 function"
         yield Hit(

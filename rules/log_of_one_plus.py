@@ -5,15 +5,21 @@ about six significant digits of x survive, and for |x| < 1.1e-16 the sum is exac
 logarithm returns 0 instead of about x. `log(1 - x)` has the same flaw. log1p(x) takes x
 itself and keeps full relative accuracy; `log1p(-x)` covers `log(1 - x)`.
 
-Counts are left alone: integers (`len(xs)`, `np.arange(n)`, histogram and bincount results) and
+Counts are left alone: integers (`len(xs)`, `np.arange(n)` whatever n is, histogram and bincount results) and
 quantities named as counts by the trade's conventions (`nobs`, `n_samples`, `df_resid`, `dof`,
 `num_items`, `hit_count`): 1 + a count rounds nothing away, and a count (or degrees of freedom)
 is never a small fraction.
 
-Two uses are left alone because they see only the absolute error of the logarithm, which is what
+Some uses are left alone because they see only the absolute error of the logarithm, which is what
 forming 1 + x costs: a product computed in log space (`exp(cumsum(log(1 - h)))`, as long as the
-product is not then set against 1), and a term of a sum beside a constant at least as large
-(`-n*log(2*pi)/2 - n*sum(log(1 - lam))/2`).
+product is not then set against 1), a power in log space (`exp(k*log(1 - p))` with k free of p's
+variables, which is (1 - p)**k with the same rounding of 1 - p; with a k built from p's variables,
+as in (1 + r/n)**n, only when the power is just compared with a uniform draw), a log-sum-exp
+(`m + log(sum(exp(t - m)))` or `logsumexp(t)`, each term's log entering as a relative error of
+that term), a term of a sum beside a constant at least as large
+(`-n*log(2*pi)/2 - n*sum(log(1 - lam))/2`), and an operand of an absolute-tolerance check
+(`assert_almost_equal`). So is a `log(1 - p)` inside a branch whose test keeps |p| >= 0.1
+(`if 0.975 < p:`): p is never small there, and for p >= 0.5 the difference 1 - p is exact.
 """
 from __future__ import annotations
 
@@ -22,8 +28,10 @@ from collections.abc import Iterator
 
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import patterns as p
-from auditor.counts import count_named
-from auditor.log_space import beside_large_constant, exponentiated_only
+from auditor.abs_checks import absolute_check_only
+from auditor.branch_bounds import guarded_away_from_zero
+from auditor.counts import count_named, whole
+from auditor.log_space import beside_large_constant, exponentiated_only, log_space_only
 from auditor.positions import seeds_iteration
 from auditor.values import known_values
 
@@ -51,16 +59,22 @@ def one_plus(ctx: Context, expr: ast.expr) -> tuple[ast.expr, bool] | None:
     return other, negated
 
 
-def counts(ctx: Context, expr: ast.expr) -> bool:
-    """Integer arrays: `np.arange(n)` of integers, `np.histogram(...)[0]`, `np.bincount(...)`."""
+def counts(ctx: Context, expr: ast.expr, depth: int = 3) -> bool:
+    """Integer arrays: `np.arange(n)`, `np.arange` of integers, `np.histogram(...)[0]`, `np.bincount(...)`,
+    and those shifted by whole numbers (`np.arange(n) + 1`)."""
     expr = ctx.origin(expr)
     if isinstance(expr, ast.Subscript) and p.is_number(expr.slice, 0) and ctx.family(ctx.origin(expr.value)) == "histogram":
         return True
+    if isinstance(expr, ast.BinOp) and isinstance(expr.op, (ast.Add, ast.Sub)) and depth > 0:
+        sides = (expr.left, expr.right)
+        return any(counts(ctx, s, depth - 1) for s in sides) and \
+            all(counts(ctx, s, depth - 1) or whole(ctx, s) for s in sides)
     if not isinstance(expr, ast.Call):
         return False
     family = ctx.family(expr)
     if family == "arange":
-        return bool(expr.args) and all(p.is_integer_valued(ctx, a) for a in expr.args)
+        # arange(stop) counts 0, 1, 2, ... from 0 in steps of 1 whatever stop is (arange(2.5) is 0., 1., 2.)
+        return len(expr.args) == 1 or bool(expr.args) and all(p.is_integer_valued(ctx, a) for a in expr.args)
     return family in ("bincount", "count_nonzero")
 
 
@@ -124,6 +138,27 @@ class LogOfOnePlus(Rule):
                      "error reaches the sum (field trial)"),
         Example("import numpy as np\ndef log1pmx(x):\n    return np.log(1 + x) - x\n", True,
                 note="beside a term as small as itself, the absolute error is all of the result's digits"),
+        Example("import numpy as np\ndef accept(rng, q, delta, temp):\n    r = rng.uniform()\n"
+                "    w = 1.0 - (1.0 - q) * delta / temp\n    prob = np.exp(np.log(w) / (1.0 - q))\n    return r <= prob\n",
+                False, note="a power computed in log space and only compared with a uniform draw: the decision "
+                            "sees an absolute error of about eps (field trial)"),
+        Example("import numpy as np\ndef compound(r, n):\n    return np.exp(n * np.log(1 + r / n))\n", True,
+                note="(1 + r/n)**n: the factor n scales the log's absolute error up as r/n shrinks"),
+        Example("import numpy as np\ndef neg_log_pvalue(p, k, n, logcomb):\n    lq = np.log(1 - p)\n"
+                "    t = logcomb + k * np.log(p) + lq * (n - k)\n    t[k == n] = 0\n    m = t.max()\n"
+                "    return -(m + np.log(np.exp(t - m).sum()))\n", False,
+                note="a count times the log, into a log-sum-exp: each term sees the log's absolute error as a "
+                     "relative one, as if its factors were rounded (field trial)"),
+        Example("import math\ndef upper_tail(p):\n    cut = 1 - 0.02425\n    if cut < p:\n"
+                "        return math.sqrt(-2 * math.log(1 - p))\n    return None\n", False,
+                note="the branch keeps p near 1: 1 - p is exact and nothing of p is small (field trial)"),
+        Example("import math\ndef lower_tail(p):\n    if p < 0.97575:\n        return math.sqrt(-2 * math.log(1 - p))\n"
+                "    return None\n", True, note="a branch that lets p reach 0"),
+        Example("import numpy as np\ndef test_msle(n_samples=50):\n    y_true = np.arange(n_samples)\n"
+                "    y_pred = y_true + 1\n    return np.log(1 + y_true), np.log(1 + y_pred)\n", False,
+                note="arange(n) counts 0, 1, 2, ... whatever n is, and a count plus 1 is a count (field trial)"),
+        Example("import numpy as np\ndef grid(t0, t1):\n    return np.log(1 + np.arange(t0, t1))\n", True,
+                note="arange from an arbitrary start is not whole numbers"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:
@@ -134,9 +169,11 @@ class LogOfOnePlus(Rule):
         found = one_plus(ctx, arg) if arg is not None else None
         if found is None:
             return
-        if exponentiated_only(ctx, node) or beside_large_constant(ctx, node):
-            return  # only the log's absolute error reaches the result (auditor/log_space.py)
         x, negated = found
+        if exponentiated_only(ctx, node) or beside_large_constant(ctx, node) or log_space_only(ctx, node, x):
+            return  # only the log's absolute error reaches the result (auditor/log_space.py)
+        if guarded_away_from_zero(ctx, node, x, _SAFE) or absolute_check_only(ctx, node):
+            return  # a branch keeps |x| >= _SAFE, or only an absolute tolerance judges the value
         module = p.callee_module(ctx, node) or "math"
         rewrite, imports = None, ()
         if module in _HAS_LOG1P:

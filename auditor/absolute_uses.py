@@ -9,12 +9,15 @@ Two indirect ones follow the same reasoning:
   the absolute error of u; the root's infinite slope at 0 is cancelled by the evenness.
 * `c = (1 - t*t) / (1 + t*t)` used only as `c*u + s*v` or `(c - 1)*u`: the quotient is a factor
   of a summand, exactly as in `a + b*(1 - x*x)`, only named first.
+* a module-private helper's return value that every caller in the file only sums or averages is
+  a term of those sums, as if the helper's body were written at the call.
 """
 from __future__ import annotations
 
 import ast
 
 from auditor.rule import Context
+from auditor.use_sites import only_summed
 
 #: even functions that are analytic and nonzero at 0 (cos(0) = cosh(0) = I0(0) = J0(0) = 1;
 #: DLMF 4.14, 4.28, 10.25.2, 10.2.2, from memory): g(c*sqrt(u)) is a power series in u
@@ -78,3 +81,42 @@ def summand_through_locals(ctx: Context, node: ast.AST, depth: int = 3) -> bool:
         return False  # a module global other modules may read, or a name rebound elsewhere
     uses = [n for n in ast.walk(scope) if isinstance(n, ast.Name) and n.id == name and isinstance(n.ctx, ast.Load)]
     return bool(uses) and all(ctx.scope(u) is scope and summand_through_locals(ctx, u, depth - 1) for u in uses)
+
+
+def returned_only_summed(ctx: Context, node: ast.AST) -> bool:
+    """True when `node`, entering only as a factor or numerator, is what a module-private function
+    returns (whole, or one element of a returned tuple), and every caller in the file calls it by
+    name and only sums or averages that value: `_kernel(u).mean()`, `g, dg = _pair(x); dg.sum()`."""
+    top = _climb_factors(ctx, node)
+    parent, index = ctx.parent(top), None
+    if isinstance(parent, ast.Tuple):
+        index, parent = parent.elts.index(top), ctx.parent(parent)
+    func = ctx.scope(parent) if isinstance(parent, ast.Return) else None
+    if not isinstance(func, (ast.FunctionDef, ast.AsyncFunctionDef)) or not func.name.startswith("_") \
+            or func.name.startswith("__") or func.decorator_list:
+        return False
+    reads = [n for n in ast.walk(ctx.tree) if isinstance(n, ast.Name) and n.id == func.name]
+    if not reads or any(not isinstance(n.ctx, ast.Load) or not _called(ctx, n) for n in reads):
+        return False  # rebound, passed as a value, or never called: callers we cannot see
+    return all(_call_summed(ctx, ctx.parent(n), index) for n in reads)
+
+
+def _called(ctx: Context, name: ast.Name) -> bool:
+    call = ctx.parent(name)
+    return isinstance(call, ast.Call) and call.func is name and not any(isinstance(a, ast.Starred) for a in call.args)
+
+
+def _call_summed(ctx: Context, call: ast.AST, index: int | None) -> bool:
+    """The call's value (or its `index`-th unpacked element) is only ever summed or averaged."""
+    if index is None:
+        return only_summed(ctx, call)
+    stmt = ctx.parent(call)
+    if not (isinstance(stmt, ast.Assign) and stmt.value is call and len(stmt.targets) == 1
+            and isinstance(stmt.targets[0], ast.Tuple) and index < len(stmt.targets[0].elts)):
+        return False
+    target = stmt.targets[0].elts[index]
+    scope = ctx.scope(stmt)
+    if not isinstance(target, ast.Name) or isinstance(scope, ast.Module) or len(ctx.flow(scope).of(target.id)) != 1:
+        return False
+    uses = [n for n in ast.walk(scope) if isinstance(n, ast.Name) and n.id == target.id and isinstance(n.ctx, ast.Load)]
+    return bool(uses) and all(ctx.scope(u) is scope and only_summed(ctx, u) for u in uses)

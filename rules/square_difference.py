@@ -7,11 +7,11 @@ relative error reaches the result: under a root (sqrt(1 - c*c) for a sine), as a
 (s2 / (1 - phi**2) for an AR(1) variance, (1 - c*c) / (...) in a density), raised to a power or
 under a log. As one summand of a larger polynomial (`a + b*(1 - x*x)`) only its absolute error,
 below one unit of 1, reaches the sum, so it is left alone there; the same holds for a term of a
-sum or mean over samples (`((1 - x**2) * w).mean()`, directly or through a local only ever
-summed), for a factor named first (`c = (1 - t*t)/(1 + t*t)` used only in `c*u + s*v`), for a
-root finder's objective (only its sign and absolute size count), and for the argument of a
-function flat and nonzero at 0 (exp, cos, the elliptic integral K), also through a root when the
-function is even (`i0(beta*sqrt(1 - x*x))` is analytic in 1 - x*x). Divided differences of
+sum or mean over samples (`((1 - x**2) * w).mean()`, directly, through a local only ever summed,
+or as a private helper's return value every caller only sums), for a factor named first
+(`c = (1 - t*t)/(1 + t*t)` used only in `c*u + s*v`), for a root finder's objective (only its
+sign and absolute size count), and for the argument of a function flat and nonzero at 0 (exp,
+cos, the elliptic integral K), also through a root when the function is even (`i0(beta*sqrt(1 - x*x))` is analytic in 1 - x*x). Divided differences of
 squared ordinates in Newton's interpolation form, `y1sq + (y2sq - y1sq)/(v2 - v1)*(v - v1)`, are
 as accurate as the rounded ordinate y1sq the sum holds anyway. Nor is it reported when the code
 bounds |x| well below 1 (`sqrt(2/pi) * a/sqrt(1 + a**2)`), when both sides are whole numbers (tie
@@ -31,7 +31,7 @@ from collections.abc import Iterator
 from auditor import Context, Example, Hit, Rule, Severity
 from auditor import algebra as alg
 from auditor import patterns as p
-from auditor.absolute_uses import even_root_argument, summand_through_locals
+from auditor.absolute_uses import even_root_argument, returned_only_summed, summand_through_locals
 from auditor.arg_checks import checked_whole
 from auditor.counts import whole_or_count
 from auditor.divided_differences import interpolation_ordinates
@@ -117,9 +117,10 @@ def far_from_one(ctx: Context, x: ast.expr) -> bool:
 def absolute_use(ctx: Context, node: ast.AST) -> bool:
     """True when only the absolute error of 1 - x*x reaches a result: a term of a sum or mean over
     samples, the objective of a root finder, the argument of a function flat and nonzero at 0 (also
-    through a root when the function is even: i0(beta*sqrt(1 - x*x)) is analytic in 1 - x*x)."""
+    through a root when the function is even: i0(beta*sqrt(1 - x*x)) is analytic in 1 - x*x), also as
+    the return value of a module-private helper whose every caller only sums or averages it."""
     return only_summed(ctx, node) or solver_objective(ctx, node) or flat_call_argument(ctx, node) \
-        or even_root_argument(ctx, node)
+        or even_root_argument(ctx, node) or returned_only_summed(ctx, node)
 
 
 class SquareDifference(Rule):
@@ -229,6 +230,13 @@ class SquareDifference(Rule):
                      "(field trial: quadratic interpolation in a table)"),
         Example("def rate(x0, x1, t0, t1):\n    return (x1**2 - x0**2) / (t1 - t0)\n", True,
                 note="a slope returned on its own: its relative error is the result's"),
+        Example("import numpy as np\ndef _contrast(x):\n    gx = np.tanh(x)\n    return gx, 1 - gx**2\n\n"
+                "def ica_step(w, X):\n    gwtx, g_wtx = _contrast(w @ X)\n"
+                "    return (X * gwtx).mean(axis=1) - g_wtx.mean() * w\n", False,
+                note="a private helper's result that its only caller averages over samples (field trial: FastICA)"),
+        Example("import numpy as np\ndef _bump(u):\n    return 0.75 * (1 - u**2)\n\n"
+                "def fhat(e, h):\n    return np.mean(_bump(e / h)) / h\n\ndef weight(u):\n    return 1.0 / _bump(u)\n",
+                True, note="another caller divides by the helper's value"),
     )
 
     def check(self, node: ast.AST, ctx: Context) -> Iterator[Hit]:

@@ -11,9 +11,9 @@ sum or mean over samples (`((1 - x**2) * w).mean()`, directly, through a local o
 or as a private helper's return value every caller only sums), for a factor named first
 (`c = (1 - t*t)/(1 + t*t)` used only in `c*u + s*v`), for a root finder's objective (only its
 sign and absolute size count), and for the argument of a function flat and nonzero at 0 (exp,
-cos, the elliptic integral K), also through a root when the function is even (`i0(beta*sqrt(1 - x*x))` is analytic in 1 - x*x). Divided differences of
-squared ordinates in Newton's interpolation form, `y1sq + (y2sq - y1sq)/(v2 - v1)*(v - v1)`, are
-as accurate as the rounded ordinate y1sq the sum holds anyway. Nor is it reported when the code
+cos, the elliptic integral K), also through a root when the function is even
+(`i0(beta*sqrt(1 - x*x))` is analytic in 1 - x*x). Divided differences of squared ordinates in
+Newton's interpolation form, `y1sq + (y2sq - y1sq)/(v2 - v1)*(v - v1)`, are as accurate as the rounded ordinate y1sq the sum holds anyway. Nor is it reported when the code
 bounds |x| well below 1 (`sqrt(2/pi) * a/sqrt(1 + a**2)`), when both sides are whole numbers (tie
 counts from `return_counts=True`, parameters a distribution's `_argcheck` requires to be
 integral), or when the values are spelled out (entries of a literal matrix too) and never within

@@ -13,13 +13,14 @@ or as a private helper's return value every caller only sums), for a factor name
 sign and absolute size count), and for the argument of a function flat and nonzero at 0 (exp,
 cos, the elliptic integral K), also through a root when the function is even
 (`i0(beta*sqrt(1 - x*x))` is analytic in 1 - x*x). Divided differences of squared ordinates in
-Newton's interpolation form, `y1sq + (y2sq - y1sq)/(v2 - v1)*(v - v1)`, are as accurate as the rounded ordinate y1sq the sum holds anyway. Nor is it reported when the code
-bounds |x| well below 1 (`sqrt(2/pi) * a/sqrt(1 + a**2)`), when both sides are whole numbers (tie
-counts from `return_counts=True`, parameters a distribution's `_argcheck` requires to be
-integral), or when the values are spelled out (entries of a literal matrix too) and never within
-5% of each other except where they are equal. The factored form
-(x - y)*(x + y) subtracts the inputs themselves, which is exact when they are within a factor of
-two of each other (Sterbenz), so the result is accurate to a few units in the last place.
+Newton's interpolation form, `y1sq + (y2sq - y1sq)/(v2 - v1)*(v - v1)`, are as accurate as the
+rounded ordinate y1sq the sum holds anyway. Nor is it reported when the code bounds |x| well below
+1 (`sqrt(2/pi) * a/sqrt(1 + a**2)`), when both sides are whole numbers (tie counts from
+`return_counts=True`, parameters a distribution's `_argcheck` requires to be integral), or when
+the values are spelled out (entries of a literal matrix too) and never within 5% of each other
+except where they are equal. The factored form (x - y)*(x + y) subtracts the inputs themselves,
+which is exact when they are within a factor of two of each other (Sterbenz), so the result is
+accurate to a few units in the last place.
 For `1 - cos(t)**2` the identity sin(t)**2 is better still.
 """
 from __future__ import annotations

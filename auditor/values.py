@@ -69,11 +69,47 @@ def _values(ctx: Context, expr: ast.AST, depth: int) -> Values | None:
 def _name_values(ctx: Context, name: ast.Name, depth: int) -> Values | None:
     origin = ctx.origin(name, depth=1)
     if origin is not name:
+        if not _certain_binding(ctx, name):
+            return None  # another assignment (in a branch) may be the one in effect: not spelled out
         return known_values(ctx, origin, depth - 1)
     binding = ctx.binding(name)
     if binding is not None and isinstance(binding.stmt, ast.arg):
         return _argument_values(ctx, name, binding.stmt, depth)
     return None
+
+
+#: statements whose blocks may run zero times or only on one branch
+_CONDITIONAL = (ast.If, ast.For, ast.AsyncFor, ast.While, ast.Try, ast.Match, ast.ExceptHandler, ast.IfExp)
+
+
+def _certain_binding(ctx: Context, name: ast.Name) -> bool:
+    """True when the binding that reaches `name` is surely the one in effect: no other binding of
+    the name sits between it and the use, and every conditional block around it also holds the use
+    on the same branch (`if c: r = 0.0 else: r = f(x)` leaves `r` unknown after the if)."""
+    binding = ctx.binding(name)
+    if binding is None:
+        return False
+    here = (name.lineno, name.col_offset)
+    at = binding.effect or (binding.line, binding.column)
+    for other in ctx.flow(ctx.scope(name)).of(name.id):
+        other_at = other.effect or (other.line, other.column)
+        if other is not binding and at < other_at <= here:
+            return False
+    return _blocks(ctx, binding.stmt) <= _blocks(ctx, name)
+
+
+def _blocks(ctx: Context, node: ast.AST) -> set[tuple[int, str]]:
+    """The conditional blocks (statement, field) holding `node`, up to its scope."""
+    found: set[tuple[int, str]] = set()
+    child, scope = node, ctx.scope(node)
+    for anc in ctx.ancestors(node):
+        if anc is scope:
+            break
+        if isinstance(anc, _CONDITIONAL):
+            field = next((f for f, v in ast.iter_fields(anc) if v is child or isinstance(v, list) and child in v), "")
+            found.add((id(anc), field))
+        child = anc
+    return found
 
 
 def _call_values(ctx: Context, call: ast.Call, depth: int) -> Values | None:

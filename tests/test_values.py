@@ -66,3 +66,26 @@ def test_unknown_values_stay_unknown(source: str) -> None:
     expr = innermost.value if innermost is not None else last.value  # type: ignore[attr-defined]
     assert expr is not None
     assert known_values(ctx, expr) is None
+
+
+@pytest.mark.parametrize("source", [
+    "def f(c, x):\n    if c:\n        r = 0.0\n    else:\n        r = x / 3\n    return 1 - r**2\n",
+    "def f(c, x):\n    r = 0.5\n    if c:\n        r = x\n    return 1 - r**2\n",
+    "def f(xs):\n    r = 0.5\n    for x in xs:\n        r = x\n    return 1 - r**2\n",
+    "def f(c):\n    if c:\n        r = 0.5\n    return 1 - r**2\n",
+])
+def test_a_value_set_on_one_branch_is_not_spelled_out(source: str) -> None:
+    # linregress-style code sets r = 0.0 on one branch and computes it on the other: after the
+    # if, r is not a value the code spells out, whichever binding the walk recorded last
+    tree = ast.parse(source)
+    ctx = Context(tree, "case.py", source)
+    use = [n for n in ast.walk(tree) if isinstance(n, ast.Name) and n.id == "r" and isinstance(n.ctx, ast.Load)][-1]
+    assert known_values(ctx, use) is None
+
+
+def test_a_value_set_before_and_inside_the_same_branch_is_known() -> None:
+    source = "def f(c):\n    if c:\n        r = 0.5\n        return 1 - r**2\n    return 0.0\n"
+    tree = ast.parse(source)
+    ctx = Context(tree, "case.py", source)
+    use = next(n for n in ast.walk(tree) if isinstance(n, ast.Name) and n.id == "r" and isinstance(n.ctx, ast.Load))
+    assert known_values(ctx, use) == (0.5,)

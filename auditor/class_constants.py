@@ -9,14 +9,11 @@ from __future__ import annotations
 
 import ast
 
-from auditor import patterns as p
 from auditor.nodes import walk
 from auditor.rule import Context
 
 #: at most this many numbers in a literal collection (a longer one is data, not a few chosen points)
 MAX_NUMBERS = 64
-#: array constructors that keep the numbers of a literal list (numpy API)
-_ARRAY_FAMILIES = frozenset({"array", "asarray", "asanyarray"})
 
 
 def _enclosing_class(ctx: Context, node: ast.AST) -> ast.ClassDef | None:
@@ -83,42 +80,12 @@ def class_attribute_value(ctx: Context, attr: ast.Attribute) -> ast.expr | None:
     return value
 
 
-def literal_numbers(ctx: Context, expr: ast.expr, depth: int = 4) -> tuple[float, ...] | None:
-    """The numbers of a constant the code sets: a literal (or constant expression), a list or tuple of
-    them, `np.array([...])` of them; seen through locals and class attributes. None otherwise."""
-    if depth <= 0:
-        return None
-    expr = ctx.origin(expr)
-    if isinstance(expr, ast.Attribute):
-        value = class_attribute_value(ctx, expr)
-        return None if value is None else literal_numbers(ctx, value, depth - 1)
-    if isinstance(expr, (ast.List, ast.Tuple)):
-        if not 0 < len(expr.elts) <= MAX_NUMBERS:
-            return None
-        items = [literal_numbers(ctx, e, depth - 1) for e in expr.elts]
-        if any(i is None for i in items):
-            return None
-        return tuple(x for i in items if i is not None for x in i)
-    if isinstance(expr, ast.Call) and ctx.family(expr) in _ARRAY_FAMILIES and len(expr.args) == 1:
-        return literal_numbers(ctx, expr.args[0], depth - 1)
-    number = _fold(ctx, expr, depth)
-    return None if number is None else (number,)
+def literal_numbers(ctx: Context, expr: ast.expr) -> tuple[float, ...] | None:
+    """The numbers of a constant the code sets (a literal, a list or `np.array` of them, a grid, a
+    local or a class attribute holding one), at most MAX_NUMBERS of them; None otherwise. The
+    values themselves come from `auditor.values`, which reads class attributes through
+    `class_attribute_value` below."""
+    from auditor.values import known_values  # values reads class attributes from this module
 
-
-def _fold(ctx: Context, expr: ast.expr, depth: int) -> float | None:
-    """A literal number or arithmetic on literals and locals holding them; a parameter is never a constant
-    here (its default says nothing about what callers pass)."""
-    if depth <= 0:
-        return None
-    expr = ctx.origin(expr)
-    value = p.literal_number(expr)
-    if value is not None:
-        return float(value) if not isinstance(value, complex) else None
-    if isinstance(expr, ast.BinOp) and isinstance(expr.op, (ast.Add, ast.Sub, ast.Mult, ast.Div)):
-        a, b = _fold(ctx, expr.left, depth - 1), _fold(ctx, expr.right, depth - 1)
-        if a is None or b is None or (isinstance(expr.op, ast.Div) and b == 0):
-            return None
-        if isinstance(expr.op, ast.Div):
-            return a / b
-        return a + b if isinstance(expr.op, ast.Add) else a - b if isinstance(expr.op, ast.Sub) else a * b
-    return None
+    found = known_values(ctx, expr)
+    return found if found is not None and len(found) <= MAX_NUMBERS else None

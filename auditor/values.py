@@ -1,5 +1,6 @@
 """The values an expression can take when the code spells them out: literals, literal arrays,
-constants set in the scope, and the arguments every visible call passes to a nested function.
+constants set in the scope or once in a class, and the arguments every visible call passes to a
+nested function.
 
 A finding about "x near 0" or "x near y" is moot when the code fixes x to 0.3 (`p, loc = 0.3, 3`,
 `y = np.array([0.5, 1, 7])`, `params = np.r_[0.0, 2]`, or a test helper only ever called with
@@ -13,6 +14,7 @@ import math
 from collections.abc import Callable, Sequence
 
 from auditor import patterns as p
+from auditor.class_constants import class_attribute_value
 from auditor.rule import Context
 
 Values = tuple[float, ...]
@@ -51,6 +53,9 @@ def _values(ctx: Context, expr: ast.AST, depth: int) -> Values | None:
         return (math.pi if ctx.family(expr) == "pi" else math.e,)
     if isinstance(expr, ast.Name):
         return _name_values(ctx, expr, depth)
+    if isinstance(expr, ast.Attribute):
+        value = class_attribute_value(ctx, expr)  # `self.xx` set once in the class (setup_class, __init__)
+        return None if value is None else known_values(ctx, value, depth - 1)
     if isinstance(expr, (ast.List, ast.Tuple)):
         return _concat([known_values(ctx, e, depth) for e in expr.elts])
     if isinstance(expr, ast.UnaryOp) and isinstance(expr.op, (ast.USub, ast.UAdd)):

@@ -90,7 +90,8 @@ def returned_only_summed(ctx: Context, node: ast.AST) -> bool:
     top = _climb_factors(ctx, node)
     parent, index = ctx.parent(top), None
     if isinstance(parent, ast.Tuple):
-        index, parent = parent.elts.index(top), ctx.parent(parent)
+        index = next(i for i, e in enumerate(parent.elts) if e is top)
+        parent = ctx.parent(parent)
     func = ctx.scope(parent) if isinstance(parent, ast.Return) else None
     if not isinstance(func, (ast.FunctionDef, ast.AsyncFunctionDef)) or not func.name.startswith("_") \
             or func.name.startswith("__") or func.decorator_list:
@@ -98,7 +99,8 @@ def returned_only_summed(ctx: Context, node: ast.AST) -> bool:
     reads = [n for n in ast.walk(ctx.tree) if isinstance(n, ast.Name) and n.id == func.name]
     if not reads or any(not isinstance(n.ctx, ast.Load) or not _called(ctx, n) for n in reads):
         return False  # rebound, passed as a value, or never called: callers we cannot see
-    return all(_call_summed(ctx, ctx.parent(n), index) for n in reads)
+    calls = [ctx.parent(n) for n in reads]
+    return all(c is not None and _call_summed(ctx, c, index) for c in calls)
 
 
 def _called(ctx: Context, name: ast.Name) -> bool:

@@ -24,7 +24,7 @@ def entry_values(ctx: Context, expr: ast.AST) -> Values | None:
     if found is not None or not isinstance(expr, ast.Subscript):
         return found
     index = _constant_indices(expr.slice)
-    literal = _literal_matrix(ctx, expr.value)
+    literal: ast.expr | None = _literal_matrix(ctx, expr.value)
     if index is None or literal is None:
         return None
     for i in index:

@@ -54,8 +54,8 @@ def _values(ctx: Context, expr: ast.AST, depth: int) -> Values | None:
     if isinstance(expr, ast.Name):
         return _name_values(ctx, expr, depth)
     if isinstance(expr, ast.Attribute):
-        value = class_attribute_value(ctx, expr)  # `self.xx` set once in the class (setup_class, __init__)
-        return None if value is None else known_values(ctx, value, depth - 1)
+        held = class_attribute_value(ctx, expr)  # `self.xx` set once in the class (setup_class, __init__)
+        return None if held is None else known_values(ctx, held, depth - 1)
     if isinstance(expr, (ast.List, ast.Tuple)):
         return _concat([known_values(ctx, e, depth) for e in expr.elts])
     if isinstance(expr, ast.UnaryOp) and isinstance(expr.op, (ast.USub, ast.UAdd)):

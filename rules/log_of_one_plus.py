@@ -175,7 +175,8 @@ class LogOfOnePlus(Rule):
         if guarded_away_from_zero(ctx, node, x, _SAFE) or absolute_check_only(ctx, node):
             return  # a branch keeps |x| >= _SAFE, or only an absolute tolerance judges the value
         module = p.callee_module(ctx, node) or "math"
-        rewrite, imports = None, ()
+        rewrite: str | None = None
+        imports: tuple[str, ...] = ()
         if module in _HAS_LOG1P:
             func, imports = p.spelled(ctx, module, "log1p")
             inner = p.operand_text(ctx, x) if negated else p.text(ctx, x)

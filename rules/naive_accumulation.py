@@ -236,8 +236,9 @@ def fsum_text(ctx: Context, loop: ast.For, acc: Accumulation) -> tuple[str | Non
     """`total += math.fsum(term for item in values [if cond])` when each pass adds one term: the body
     is the addition, under at most one `if` without `else`, after per-pass temporaries it inlines."""
     body, cond = loop.body, None
-    if len(body) == 1 and isinstance(body[0], ast.If) and not body[0].orelse and body[0].body == [acc.stmt]:
-        body, cond = [acc.stmt], body[0].test
+    first = body[0] if len(body) == 1 else None
+    if isinstance(first, ast.If) and not first.orelse and first.body == [acc.stmt]:
+        body, cond = [acc.stmt], first.test
     if body[-1] is not acc.stmt or loop.orelse or not isinstance(loop, ast.For):
         return None, ()
     if any(read_after(ctx, loop, name) for name in {n.id for n in ast.walk(loop.target) if isinstance(n, ast.Name)} | {

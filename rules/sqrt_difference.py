@@ -132,7 +132,8 @@ class SqrtDifference(Rule):
         if found is None or not p.is_one(found[1]):
             return
         module = p.callee_module(ctx, node) or "math"
-        rewrite, imports = None, ()
+        rewrite: str | None = None
+        imports: tuple[str, ...] = ()
         if module in ("math", "numpy", "cmath", "mpmath"):
             func, imports = p.spelled(ctx, module, "asinh" if module != "numpy" else "arcsinh")
             rewrite = f"{func}({p.text(ctx, found[0])})"

@@ -105,7 +105,9 @@ def _integer_arithmetic_names(expr: ast.AST) -> set[str]:
 
 def shape_element(ctx: Context, step: ast.expr) -> bool:
     """`for dim in x.shape` / `for k, dim in enumerate(grid_shape)`: the step is one entry of a shape tuple."""
-    b = ctx.binding(step) if isinstance(step, ast.Name) else None
+    if not isinstance(step, ast.Name):
+        return False
+    b = ctx.binding(step)
     if b is None or b.kind != "loop" or not isinstance(b.stmt, (ast.For, ast.comprehension)):
         return False
     loop, it = b.stmt, b.stmt.iter

@@ -16,11 +16,12 @@ from auditor.flow import Binding
 from auditor.local_returns import returned_items
 from auditor.relative_names import relative_qualname
 from auditor.rule import Context
+from auditor.values import certain_binding
 
+#: numeric families whose value, for a real argument, lies within [-1, 1]
+UNIT_FAMILIES = frozenset({"sin", "cos", "sinpi", "cospi", "tanh", "erf", "sign"})
 #: numeric families whose value, for a real argument, lies within [-pi, pi]
-_BOUNDED_FAMILIES = frozenset({
-    "sin", "cos", "sinpi", "cospi", "tanh", "erf", "erfc", "sign", "atan", "atan2", "asin", "acos", "softmax",
-})
+_BOUNDED_FAMILIES = UNIT_FAMILIES | {"erfc", "atan", "atan2", "asin", "acos", "softmax"}
 
 #: library functions documented to return unit vectors: qualified name -> (position of the unit vector
 #: in the returned tuple, or None for the whole result; length of that tuple). From the pyerfa/SOFA
@@ -120,8 +121,8 @@ def _unit_element(ctx: Context, sub: ast.Subscript) -> bool:
 
 def _name_bounded(ctx: Context, name: ast.Name, depth: int) -> bool:
     binding = ctx.binding(name)
-    if binding is None or stored_into(ctx, name, binding):
-        return False
+    if binding is None or stored_into(ctx, name, binding) or not certain_binding(ctx, name):
+        return False  # changed in place, or another assignment (on a branch) may be the one in effect
     if len(ctx.flow(ctx.scope(name)).of(name.id)) > 1 and ctx.enclosing_loops(name):
         return False  # reassigned inside a loop: the reaching value is ambiguous
     if binding.kind in ("assign", "unpack") and binding.value is not None:

@@ -10,13 +10,11 @@ from __future__ import annotations
 import ast
 
 from auditor import patterns as p
-from auditor.bounded import divided_by_own_norm
+from auditor.bounded import UNIT_FAMILIES, divided_by_own_norm
 from auditor.elementary import sqrt_argument, square_base
 from auditor.rule import Context
-from auditor.values import known_values
+from auditor.values import certain_binding, known_values
 
-#: functions bounded by 1 in size for every real argument
-_UNIT_BOUNDED = frozenset({"sin", "cos", "sinpi", "cospi", "tanh", "erf", "sign"})
 
 
 def magnitude_bound(ctx: Context, expr: ast.expr, depth: int = 6) -> float | None:
@@ -30,9 +28,11 @@ def magnitude_bound(ctx: Context, expr: ast.expr, depth: int = 6) -> float | Non
         return magnitude_bound(ctx, expr.operand, depth - 1)
     if isinstance(expr, ast.Name):
         origin = ctx.origin(expr, depth=1)
-        return None if origin is expr else magnitude_bound(ctx, origin, depth - 1)
+        if origin is expr or not certain_binding(ctx, expr):
+            return None  # not assigned, or another assignment (on a branch) may be the one in effect
+        return magnitude_bound(ctx, origin, depth - 1)
     if isinstance(expr, ast.Call):
-        return 1.0 if ctx.family(expr) in _UNIT_BOUNDED and len(expr.args) == 1 and not _complex(ctx, expr) else None
+        return 1.0 if ctx.family(expr) in UNIT_FAMILIES and len(expr.args) == 1 and not _complex(ctx, expr) else None
     if not isinstance(expr, ast.BinOp):
         return None
     if isinstance(expr.op, ast.Mult):

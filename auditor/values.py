@@ -74,7 +74,7 @@ def _values(ctx: Context, expr: ast.AST, depth: int) -> Values | None:
 def _name_values(ctx: Context, name: ast.Name, depth: int) -> Values | None:
     origin = ctx.origin(name, depth=1)
     if origin is not name:
-        if not _certain_binding(ctx, name):
+        if not certain_binding(ctx, name):
             return None  # another assignment (in a branch) may be the one in effect: not spelled out
         return known_values(ctx, origin, depth - 1)
     binding = ctx.binding(name)
@@ -87,7 +87,7 @@ def _name_values(ctx: Context, name: ast.Name, depth: int) -> Values | None:
 _CONDITIONAL = (ast.If, ast.For, ast.AsyncFor, ast.While, ast.Try, ast.Match, ast.ExceptHandler, ast.IfExp)
 
 
-def _certain_binding(ctx: Context, name: ast.Name) -> bool:
+def certain_binding(ctx: Context, name: ast.Name) -> bool:
     """True when the binding that reaches `name` is surely the one in effect: no other binding of
     the name sits between it and the use, and every conditional block around it also holds the use
     on the same branch (`if c: r = 0.0 else: r = f(x)` leaves `r` unknown after the if)."""

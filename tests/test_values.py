@@ -89,3 +89,18 @@ def test_a_value_set_before_and_inside_the_same_branch_is_known() -> None:
     ctx = Context(tree, "case.py", source)
     use = next(n for n in ast.walk(tree) if isinstance(n, ast.Name) and n.id == "r" and isinstance(n.ctx, ast.Load))
     assert known_values(ctx, use) == (0.5,)
+
+
+def test_bound_facts_refuse_a_value_set_on_one_branch() -> None:
+    # bounded/magnitude clear hypot and 1 - x*x findings; a value that is sin(t) on one branch and
+    # free on the other must not count as bounded after the if
+    from auditor.bounded import is_bounded
+    from auditor.magnitude import magnitude_bound
+
+    source = ("import numpy as np\ndef f(c, t, x):\n    if c:\n        u = np.sin(t)\n    else:\n        u = x\n"
+              "    return u\n")
+    tree = ast.parse(source)
+    ctx = Context(tree, "case.py", source)
+    use = [n for n in ast.walk(tree) if isinstance(n, ast.Name) and n.id == "u" and isinstance(n.ctx, ast.Load)][-1]
+    assert not is_bounded(ctx, use)
+    assert magnitude_bound(ctx, use) is None

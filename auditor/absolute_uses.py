@@ -16,6 +16,7 @@ from __future__ import annotations
 
 import ast
 
+from auditor.local_returns import private_calls
 from auditor.rule import Context
 from auditor.use_sites import only_summed
 
@@ -93,19 +94,10 @@ def returned_only_summed(ctx: Context, node: ast.AST) -> bool:
         index = next(i for i, e in enumerate(parent.elts) if e is top)
         parent = ctx.parent(parent)
     func = ctx.scope(parent) if isinstance(parent, ast.Return) else None
-    if not isinstance(func, (ast.FunctionDef, ast.AsyncFunctionDef)) or not func.name.startswith("_") \
-            or func.name.startswith("__") or func.decorator_list:
+    if not isinstance(func, ast.FunctionDef):
         return False
-    reads = [n for n in ast.walk(ctx.tree) if isinstance(n, ast.Name) and n.id == func.name]
-    if not reads or any(not isinstance(n.ctx, ast.Load) or not _called(ctx, n) for n in reads):
-        return False  # rebound, passed as a value, or never called: callers we cannot see
-    calls = [ctx.parent(n) for n in reads]
-    return all(c is not None and _call_summed(ctx, c, index) for c in calls)
-
-
-def _called(ctx: Context, name: ast.Name) -> bool:
-    call = ctx.parent(name)
-    return isinstance(call, ast.Call) and call.func is name and not any(isinstance(a, ast.Starred) for a in call.args)
+    calls = private_calls(ctx, func)  # [] when rebound, passed as a value, or never called: callers we cannot see
+    return bool(calls) and all(_call_summed(ctx, c, index) for c in calls)
 
 
 def _call_summed(ctx: Context, call: ast.AST, index: int | None) -> bool:

@@ -52,3 +52,32 @@ def _item(value: ast.expr | None, position: int | None, length: int | None) -> a
             isinstance(e, ast.Starred) for e in value.elts):
         return value.elts[position]
     return None
+
+
+def private_calls(ctx: Context, func: ast.FunctionDef) -> list[ast.Call]:
+    """Every call of a private module-level function, or [] when the function is used any other way
+    (passed as a value, rebound, decorated, named in a string such as `__all__` or `getattr`).
+    By the naming convention a private helper's callers live in its own module. Once per file."""
+    return ctx.cached("local_returns:private_calls", func, lambda: _private_calls(ctx, func))
+
+
+def _private_calls(ctx: Context, func: ast.FunctionDef) -> list[ast.Call]:
+    if not func.name.startswith("_") or func.name.startswith("__") or func.decorator_list \
+            or ctx.parent(func) is not ctx.tree:
+        return []
+    defs = [n for n in ctx.tree.body if isinstance(n, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef))
+            and n.name == func.name]
+    calls: list[ast.Call] = []
+    for n in ast.walk(ctx.tree):
+        if isinstance(n, ast.Constant) and n.value == func.name or isinstance(n, ast.Global) and func.name in n.names:
+            return []
+        if isinstance(n, ast.Name) and n.id == func.name:
+            call = ctx.parent(n)
+            if not (isinstance(n.ctx, ast.Load) and isinstance(call, ast.Call) and call.func is n):
+                return []
+            if any(isinstance(a, ast.Starred) for a in call.args) or any(k.arg is None for k in call.keywords):
+                return []
+            calls.append(call)
+        if isinstance(n, (ast.Import, ast.ImportFrom)) and any((a.asname or a.name) == func.name for a in n.names):
+            return []
+    return calls if len(defs) == 1 else []

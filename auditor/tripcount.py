@@ -4,6 +4,7 @@ from __future__ import annotations
 import ast
 
 from auditor.patterns import int_bounds, literal_number
+from auditor.local_returns import private_calls
 from auditor.rule import Context
 
 #: calls that walk their one argument item for item, no more items than it has
@@ -132,7 +133,7 @@ def _grown_names(scope: ast.AST) -> frozenset[str]:
 def _parameter_bound(ctx: Context, func: ast.FunctionDef, param: str, depth: int) -> int | None:
     """The longest value any call passes for `param`, when `func` is a private module-level function
     (its callers live in this module, by the naming convention) used only by direct calls here."""
-    calls = ctx.cached("tripcount:calls", func, lambda: _private_calls(ctx, func))
+    calls = private_calls(ctx, func)
     position = _position(func, param)
     if not calls or position is None:
         return None
@@ -141,30 +142,6 @@ def _parameter_bound(ctx: Context, func: ast.FunctionDef, param: str, depth: int
         arg = _argument(func, call, param, position)
         found.append(None if arg is None else item_bound(ctx, arg, depth - 1))
     return None if None in found else max(found)  # type: ignore[type-var]
-
-
-def _private_calls(ctx: Context, func: ast.FunctionDef) -> list[ast.Call]:
-    """Every call of a private module-level function, or [] when the function is used any other way
-    (passed as a value, rebound, decorated, named in a string such as `__all__` or `getattr`)."""
-    if not func.name.startswith("_") or func.name.startswith("__") or func.decorator_list \
-            or ctx.parent(func) is not ctx.tree:
-        return []
-    defs = [n for n in ctx.tree.body if isinstance(n, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef))
-            and n.name == func.name]
-    calls: list[ast.Call] = []
-    for n in ast.walk(ctx.tree):
-        if isinstance(n, ast.Constant) and n.value == func.name or isinstance(n, ast.Global) and func.name in n.names:
-            return []
-        if isinstance(n, ast.Name) and n.id == func.name:
-            call = ctx.parent(n)
-            if not (isinstance(n.ctx, ast.Load) and isinstance(call, ast.Call) and call.func is n):
-                return []
-            if any(isinstance(a, ast.Starred) for a in call.args) or any(k.arg is None for k in call.keywords):
-                return []
-            calls.append(call)
-        if isinstance(n, (ast.Import, ast.ImportFrom)) and any((a.asname or a.name) == func.name for a in n.names):
-            return []
-    return calls if len(defs) == 1 else []
 
 
 def _position(func: ast.FunctionDef, param: str) -> int | None:

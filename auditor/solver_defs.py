@@ -11,12 +11,10 @@ from __future__ import annotations
 import ast
 
 from auditor.rule import Context
+from auditor.use_sites import SOLVERS, is_solver
 
-#: scipy.optimize functions whose first argument is an objective or residual function
-_SOLVERS = frozenset({
-    "brentq", "brenth", "ridder", "bisect", "toms748", "newton", "root_scalar", "fsolve", "root",
-    "least_squares", "minimize_scalar", "fminbound", "golden", "brent", "minimize",
-})
+#: the root finders and minimisers of use_sites, and `minimize` (a named objective, not a lambda)
+_SOLVERS = SOLVERS | {"minimize"}
 
 
 def solver_residual(ctx: Context, node: ast.AST) -> bool:
@@ -66,6 +64,4 @@ def _objective_of_solver(ctx: Context, use: ast.Name) -> bool:
         return False
     if parent is call and not (call.args and call.args[0] is use):
         return False
-    qual = ctx.qualname(call.func) or ""
-    module, _, name = qual.rpartition(".")
-    return (module == "scipy.optimize" or module.startswith("scipy.optimize.")) and name in _SOLVERS
+    return is_solver(ctx, call, _SOLVERS)

@@ -25,7 +25,7 @@ _SUMS = frozenset({"sum", "mean", "nansum", "nanmean", "fsum"})
 _FLAT_AT_ZERO = frozenset({"exp", "exp2", "cos", "cosh", "ellipk", "ellipe", "i0", "j0", "cospi"})
 
 #: scipy.optimize functions whose first argument is an objective or residual function
-_SOLVERS = frozenset({
+SOLVERS = frozenset({
     "brentq", "brenth", "ridder", "bisect", "toms748", "newton", "root_scalar", "fsolve", "root",
     "least_squares", "minimize_scalar", "fminbound", "golden", "brent",
 })
@@ -90,9 +90,7 @@ def solver_objective(ctx: Context, node: ast.AST) -> bool:
             call = ctx.parent(anc)
             if not (isinstance(call, ast.Call) and call.args and call.args[0] is anc):
                 return False
-            qual = ctx.qualname(call.func) or ""
-            module, _, name = qual.rpartition(".")
-            return (module == "scipy.optimize" or module.startswith("scipy.optimize.")) and name in _SOLVERS
+            return is_solver(ctx, call, SOLVERS)
     return False
 
 
@@ -105,3 +103,9 @@ def flat_call_argument(ctx: Context, node: ast.AST) -> bool:
         node, parent = parent, ctx.parent(parent)
     return isinstance(parent, ast.Call) and len(parent.args) == 1 and parent.args[0] is node \
         and not parent.keywords and ctx.family(parent) in _FLAT_AT_ZERO
+
+
+def is_solver(ctx: Context, call: ast.Call, names: frozenset[str]) -> bool:
+    """True when `call` calls one of the scipy.optimize functions `names`, by any import spelling."""
+    module, _, name = (ctx.qualname(call.func) or "").rpartition(".")
+    return (module == "scipy.optimize" or module.startswith("scipy.optimize.")) and name in names

@@ -26,14 +26,23 @@ class Binding:
     effect: tuple[int, int] | None = None  #: (line, col) from which the binding is visible; None: (line, column)
 
 
+Span = tuple[tuple[int, int], tuple[int, int]]
+
+
 @dataclass(slots=True)
 class ScopeFlow:
     """All bindings in one scope, in source order, nested scopes excluded."""
 
     bindings: dict[str, list[Binding]] = field(default_factory=dict)
+    #: id of a binding made inside an `except` handler -> the handler's (start, end)
+    handler_spans: dict[int, Span] = field(default_factory=dict)
+    #: the handler being recorded, while `analyse_scope` walks one
+    recording_handler: Span | None = None
 
     def add(self, binding: Binding) -> None:
         self.bindings.setdefault(binding.name, []).append(binding)
+        if self.recording_handler is not None:
+            self.handler_spans[id(binding)] = self.recording_handler
 
     def of(self, name: str) -> list[Binding]:
         return self.bindings.get(name, [])
@@ -42,13 +51,26 @@ class ScopeFlow:
         """The last binding of `name` in effect at (line, column).
 
         A binding takes effect once its value has been evaluated, so in `a = a * 2` the `a` on
-        the right sees the previous binding, not this one.
+        the right sees the previous binding, not this one. Of the bindings written before the use,
+        the last in the source wins, except that one made in an `except` handler only counts for
+        uses inside that handler or when nothing else reaches: after `try: a = inv(m)` /
+        `except: a = pinv(m)` the try body is the path normally taken.
         """
+        here = (line, column)
         best: Binding | None = None
+        fallback: Binding | None = None
+        best_at = fallback_at = (-1, -1)
         for b in self.bindings.get(name, ()):
-            if (b.effect or (b.line, b.column)) <= (line, column):
-                best = b
-        return best
+            at = b.effect or (b.line, b.column)
+            if at > here:
+                continue
+            span = self.handler_spans.get(id(b))
+            if span is not None and not span[0] <= here <= span[1]:
+                if at >= fallback_at:
+                    fallback, fallback_at = b, at
+            elif at >= best_at:
+                best, best_at = b, at
+        return best if best is not None else fallback
 
 
 def _end(node: ast.AST | None, fallback: ast.AST) -> tuple[int, int]:
@@ -136,17 +158,23 @@ def analyse_scope(scope: ast.AST, walrus: bool = True) -> ScopeFlow:
             if walrus:
                 _walrus_targets(scope, flow)
             return flow
-    stack: list[ast.AST] = list(getattr(scope, "body", []))[::-1]
+    # a stack of (statement, the except handler it sits in); blocks are pushed last-field-first so
+    # that statements are recorded in source order
+    stack: list[tuple[ast.AST, Span | None]] = [(s, None) for s in reversed(getattr(scope, "body", []))]
     while stack:
-        node = stack.pop()
+        node, handler = stack.pop()
+        if isinstance(node, ast.ExceptHandler):
+            handler = ((node.lineno, node.col_offset), (node.end_lineno or node.lineno, node.end_col_offset or 0))
+        flow.recording_handler = handler
         _record(node, flow)
         if isinstance(node, (ast.FunctionDef, ast.AsyncFunctionDef, ast.ClassDef)):
             flow.add(Binding(node.name, OTHER, node.lineno, node.col_offset, None, node))
             continue
         if walrus:
             _walrus_targets(node, flow)
-        for field_name in _BLOCKS:
+        for field_name in reversed(_BLOCKS):
             block = getattr(node, field_name, None)
             if block:
-                stack.extend(reversed(block))
+                stack.extend((child, handler) for child in reversed(block))
+    flow.recording_handler = None
     return flow
